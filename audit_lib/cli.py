@@ -1,0 +1,79 @@
+"""The ``light-audit`` command: a thin wrapper over library calls.
+
+Each subcommand has a ``_add_<name>_parser(subparsers)`` function that registers it and a
+handler that calls one library function. Bad input exits with status 2 and one message
+naming the file, line and field; never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import warnings
+
+from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
+
+
+def _add_spectrum_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "spectrum",
+        help="weighted quantities of one measured spectrum (UV Index, vitamin D, bands, lux, ...)",
+    )
+    p.add_argument("file", help="spectrum file (CSV, TSV or TXT): wavelength [nm] and irradiance")
+    p.add_argument(
+        "--unit",
+        help="unit of the irradiance column if the header does not say it, e.g. 'uW/cm^2/nm'",
+    )
+    p.add_argument("--json", action="store_true", help="print one JSON object (SI units)")
+    p.set_defaults(handler=_run_spectrum)
+
+
+def _run_spectrum(args) -> int:
+    import json
+
+    from audit_lib.metrics import format_metrics_table, spectrum_metrics
+    from audit_lib.spectra import read_spectrum
+
+    spectrum = read_spectrum(args.file, unit=args.unit)
+    result = spectrum_metrics(spectrum)
+    if args.json:
+        print(json.dumps(result, indent=2, allow_nan=False))
+    else:
+        print(format_metrics_table(result, title=spectrum.name))
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """Return the argument parser with every subcommand registered."""
+    parser = argparse.ArgumentParser(
+        prog="light-audit",
+        description="Audit the UV and visible lighting of reptile and amphibian enclosures.",
+    )
+    subparsers = parser.add_subparsers(dest="command", required=True)
+    for add in (_add_spectrum_parser,):
+        add(subparsers)
+    return parser
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    print(f"warning: {message}", file=sys.stderr)
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run ``light-audit``; return the exit status (2 for bad input)."""
+    args = build_parser().parse_args(argv)
+    with warnings.catch_warnings():
+        warnings.simplefilter("always", AuditWarning)
+        warnings.showwarning = _show_warning
+        try:
+            return int(args.handler(args) or 0)
+        except (InputError, InputErrors) as exc:
+            print(f"error: {exc}", file=sys.stderr)
+            return 2
+        except AuditError as exc:
+            print(f"error: {exc}", file=sys.stderr)
+            return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())
