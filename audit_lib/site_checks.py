@@ -1,0 +1,365 @@
+"""Checks of a site folder beyond the schema: cross-references, files, dates, readings.
+
+Also turns pydantic's validation errors into :class:`audit_lib.errors.InputError` records
+with the TOML key path, the line in ``site.toml`` and a hint.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import difflib
+import re
+from pathlib import Path
+
+import pandas as pd
+
+from audit_lib.errors import InputError
+from audit_lib.site_schema import ID_PATTERN, LAMP_KINDS, Record, SiteFile
+
+#: Above these a reading is not physically plausible for any lamp or the sun [SI].
+PLAUSIBLE_MAX = {
+    "uvi": 25.0,
+    "uvb_w_m2": 30.0,
+    "uva_w_m2": 300.0,
+    "vitamin_d_w_m2": 10.0,
+    "illuminance_lux": 200_000.0,
+}
+_HEADER = re.compile(r"^\s*(\[\[?)\s*([A-Za-z0-9_.\-\s\"]+?)\s*\]\]?\s*(#.*)?$")
+_KEY = re.compile(r"^\s*([A-Za-z0-9_\-]+)\s*=")
+
+
+def locate_keys(text: str) -> dict[str, int]:
+    """Map TOML key paths (``enclosures[2].lamps[0].z_m``) to 1-based line numbers.
+
+    Understands the subset of TOML a site file uses: ``[table]`` and ``[[array]]`` headers
+    with dotted names and ``key = value`` lines; keys inside inline tables get the line of
+    their parent key.
+    """
+    lines: dict[str, int] = {}
+    counts: dict[str, int] = {}
+    table = ""
+    for number, line in enumerate(text.splitlines(), start=1):
+        header = _HEADER.match(line)
+        if header:
+            parts = [p.strip().strip('"') for p in header.group(2).split(".")]
+            path = ""
+            for i, part in enumerate(parts):
+                name = f"{path}.{part}" if path else part
+                last = i == len(parts) - 1
+                if name in counts and not (last and header.group(1) == "["):
+                    name = f"{name}[{counts[name] - 1}]"
+                if last and header.group(1) == "[[":
+                    counts[name] = counts.get(name, 0) + 1
+                    name = f"{name}[{counts[name] - 1}]"
+                path = name
+            table = path
+            lines.setdefault(table, number)
+            continue
+        key = _KEY.match(line)
+        if key and not line.lstrip().startswith("#"):
+            lines.setdefault(f"{table}.{key.group(1)}" if table else key.group(1), number)
+    return lines
+
+
+def key_path(loc: tuple) -> str:
+    """Join a pydantic error location into a TOML key path, dropping union tags."""
+    out = ""
+    for part in loc:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        elif part in LAMP_KINDS or part.startswith("function-"):
+            continue
+        else:
+            out += f".{part}" if out else str(part)
+    return out
+
+
+def line_of(path_key: str, lines: dict[str, int]) -> int | None:
+    """Return the line of a key path, or of its nearest parent that has one."""
+    key = path_key
+    while key:
+        if key in lines:
+            return lines[key]
+        cut = max(key.rfind("."), key.rfind("["))
+        key = key[:cut] if cut > 0 else ""
+    return None
+
+
+def _model_at(loc: tuple) -> type[Record] | None:
+    """The record class that holds the last key of ``loc`` (for 'allowed keys' hints)."""
+    model: type | None = SiteFile
+    for part in loc[:-1]:
+        if isinstance(part, int) or model is None:
+            continue
+        if part in LAMP_KINDS:
+            from audit_lib import site_schema as s
+
+            model = {"led_array": s.LedArrayModel, "tube": s.TubeModel,
+                     "point": s.PointLampModel, "from_readings": s.MeasuredLampModel}[part]
+            continue
+        field = getattr(model, "model_fields", {}).get(part)
+        model = _record_in(field.annotation) if field else None
+    return model
+
+
+def _record_in(annotation) -> type[Record] | None:
+    if isinstance(annotation, type) and issubclass(annotation, Record):
+        return annotation
+    for arg in getattr(annotation, "__args__", ()):
+        found = _record_in(arg)
+        if found is not None:
+            return found
+    return None
+
+
+def _hint(error: dict, loc: tuple) -> str | None:
+    kind = error["type"]
+    if kind == "extra_forbidden":
+        model = _model_at(loc)
+        if model is None:
+            return "remove this key or check its spelling"
+        allowed = list(model.model_fields)
+        close = difflib.get_close_matches(str(loc[-1]), allowed, n=1)
+        lead = f"did you mean '{close[0]}'? " if close else ""
+        return lead + "allowed keys here: " + ", ".join(allowed)
+    if kind == "missing":
+        return "add this key"
+    if kind == "string_pattern_mismatch" and ID_PATTERN in str(error.get("ctx", {})):
+        return "ids are used as file names: lower-case letters, digits, '-' and '_'"
+    if kind == "literal_error":
+        return None  # the message already lists the choices
+    if kind.endswith("_type") or kind.endswith("_parsing"):
+        return "check the value's type (numbers unquoted, text in quotes, dates YYYY-MM-DD)"
+    return None
+
+
+def schema_problems(exc, path: Path, lines: dict[str, int]) -> list[InputError]:
+    """Turn a pydantic ``ValidationError`` into InputErrors with key paths and lines."""
+    problems = []
+    for error in exc.errors(include_url=False):
+        loc = tuple(error["loc"])
+        field = key_path(loc)
+        message = error["msg"].removeprefix("Value error, ")
+        if error["type"] == "string_pattern_mismatch" and ID_PATTERN in str(error.get("ctx")):
+            message = f"{error.get('input')!r} is not a safe id"
+        elif error["type"] == "extra_forbidden":
+            message = f"unknown key '{loc[-1]}'"
+        elif error["type"] == "missing":
+            message = "required key is missing"
+        problems.append(InputError(message, path=path, line=line_of(field, lines),
+                                   field=field, hint=_hint(error, loc)))
+    return problems
+
+
+def _duplicates(items, prefix: str, path: Path, lines: dict, what: str) -> list[InputError]:
+    seen, problems = {}, []
+    for i, item in enumerate(items):
+        if item.id in seen:
+            field = f"{prefix}[{i}].id"
+            problems.append(InputError(
+                f"duplicate {what} id {item.id!r}", path=path, line=line_of(field, lines),
+                field=field, hint=f"already used by {prefix}[{seen[item.id]}]; ids must be unique"))
+        seen.setdefault(item.id, i)
+    return problems
+
+
+def _missing_ref(value, known, field, what, path, lines, line=None) -> InputError:
+    close = difflib.get_close_matches(value, list(known), n=1)
+    hint = (f"did you mean {close[0]!r}? " if close else "") + (
+        "known ids: " + ", ".join(sorted(known)) if known else "none are defined")
+    line = line if line is not None else line_of(field, lines)
+    return InputError(f"no {what} with id {value!r}", path=path, line=line, field=field,
+                      hint=hint)
+
+
+def _file_problem(root: Path, name: str | None, field: str, path: Path, lines: dict):
+    if name is None:
+        return []
+    target = (root / name).resolve()
+    if root.resolve() not in target.parents:
+        return [InputError(f"file {name!r} lies outside the site folder", path=path,
+                           line=line_of(field, lines), field=field,
+                           hint="give a path relative to the site folder, without '..'")]
+    if not target.is_file():
+        return [InputError(f"file {name!r} does not exist", path=path,
+                           line=line_of(field, lines), field=field,
+                           hint="paths are relative to the site folder")]
+    return []
+
+
+def partial_site(data) -> tuple[SiteFile, dict[str, set[str]]]:
+    """Validate ``site.toml`` data item by item; keep the valid items.
+
+    Used when the whole file does not validate, so that references, dates and readings can
+    still be checked (all problems at once). Returns the valid items and, per list, the ids
+    of the items dropped as invalid (references to those are not reported again).
+    """
+    from pydantic import TypeAdapter, ValidationError
+
+    from audit_lib import site_schema as s
+
+    data = data if isinstance(data, dict) else {}
+    types = {"meters": s.Meter, "lamp_models": s.LampModel, "enclosures": s.Enclosure,
+             "schedules": s.Schedule, "species": s.Species}
+    kept: dict[str, list] = {}
+    dropped: dict[str, set[str]] = {}
+    for key, item_type in types.items():
+        items = data.get(key, [])
+        adapter = TypeAdapter(item_type)
+        kept[key], dropped[key] = [], set()
+        for item in items if isinstance(items, list) else []:
+            try:
+                kept[key].append(adapter.validate_python(item))
+            except ValidationError:
+                if isinstance(item, dict) and isinstance(item.get("id"), str):
+                    dropped[key].add(item["id"])
+    try:
+        info = s.SiteInfo.model_validate(data.get("site", {}))
+    except ValidationError:
+        info = None
+    return SiteFile.model_construct(format_version=1, site=info, **kept), dropped
+
+
+def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int],
+                   known_species: set[str], today: dt.date,
+                   dropped: dict[str, set[str]] | None = None) -> list[InputError]:
+    """Check references between records, referenced files and dates; return every problem.
+
+    ``dropped`` holds ids of items that failed the schema (see :func:`partial_site`):
+    references to them are not reported a second time.
+    """
+    dropped = dropped or {}
+    p: list[InputError] = []
+    p += _duplicates(site.meters, "meters", path, lines, "meter")
+    p += _duplicates(site.lamp_models, "lamp_models", path, lines, "lamp model")
+    p += _duplicates(site.enclosures, "enclosures", path, lines, "enclosure")
+    p += _duplicates(site.schedules, "schedules", path, lines, "schedule")
+    p += _duplicates(site.species, "species", path, lines, "species")
+    models = {m.id for m in site.lamp_models} | dropped.get("lamp_models", set())
+    schedules = {s.id for s in site.schedules} | dropped.get("schedules", set())
+    species = known_species | {s.id for s in site.species} | dropped.get("species", set())
+    if site.site is not None:
+        p += _file_problem(root, site.site.logo, "site.logo", path, lines)
+
+    def future(value, field, what):
+        if value is not None and value > today:
+            p.append(InputError(f"{what} {value} is in the future", path=path,
+                                line=line_of(field, lines), field=field,
+                                hint=f"today is {today}; check the year"))
+
+    for i, meter in enumerate(site.meters):
+        future(meter.calibration_date, f"meters[{i}].calibration_date", "calibration date")
+        p += _file_problem(root, meter.spectral_response, f"meters[{i}].spectral_response",
+                           path, lines)
+    for i, model in enumerate(site.lamp_models):
+        p += _file_problem(root, model.spectrum, f"lamp_models[{i}].spectrum", path, lines)
+        if model.kind == "led_array":
+            p += _duplicates(model.emitters, f"lamp_models[{i}].emitters", path, lines, "emitter")
+            types = {e.id for e in model.emitters}
+            for key, places in (("layout", model.layout), ("grids", model.grids)):
+                for j, place in enumerate(places):
+                    if place.emitter not in types:
+                        p.append(_missing_ref(place.emitter, types,
+                                              f"lamp_models[{i}].{key}[{j}].emitter",
+                                              "emitter", path, lines))
+        elif not model.bands and not model.spectrum and model.kind != "from_readings":
+            p.append(InputError("the lamp needs bands or a spectrum file", path=path,
+                                line=line_of(f"lamp_models[{i}]", lines),
+                                field=f"lamp_models[{i}]", hint="add [[lamp_models.bands]]"))
+    for i, enc in enumerate(site.enclosures):
+        e = f"enclosures[{i}]"
+        for j, sp in enumerate(enc.species):
+            if sp not in species:
+                p.append(_missing_ref(sp, species, f"{e}.species[{j}]", "species", path, lines))
+        for key in ("surfaces", "lamps", "screens", "positions"):
+            p += _duplicates(getattr(enc, key), f"{e}.{key}", path, lines, key.rstrip("s"))
+        screens = {s.id for s in enc.screens}
+        for j, screen in enumerate(enc.screens):
+            p += _file_problem(root, screen.transmission_spectrum,
+                               f"{e}.screens[{j}].transmission_spectrum", path, lines)
+        for j, lamp in enumerate(enc.lamps):
+            lf = f"{e}.lamps[{j}]"
+            if lamp.model not in models:
+                p.append(_missing_ref(lamp.model, models, f"{lf}.model", "lamp model", path,
+                                      lines))
+            if lamp.schedule is not None and lamp.schedule not in schedules:
+                p.append(_missing_ref(lamp.schedule, schedules, f"{lf}.schedule", "schedule",
+                                      path, lines))
+            for k, sid in enumerate(lamp.screens):
+                if sid not in screens:
+                    p.append(_missing_ref(sid, screens, f"{lf}.screens[{k}]", "screen", path,
+                                          lines))
+            future(lamp.installed, f"{lf}.installed", "install date")
+            if not (0 <= lamp.x_m <= enc.width_m and 0 <= lamp.y_m <= enc.depth_m):
+                p.append(InputError("lamp lies outside the enclosure's floor plan", path=path,
+                                    line=line_of(f"{lf}.x_m", lines), field=lf,
+                                    hint=f"x_m in 0..{enc.width_m}, y_m in 0..{enc.depth_m}"))
+        for j, item in enumerate(enc.surfaces + enc.positions):
+            key = "surfaces" if j < len(enc.surfaces) else "positions"
+            k = j if j < len(enc.surfaces) else j - len(enc.surfaces)
+            far_x = item.x_m + getattr(item, "width_m", 0.0)
+            far_y = item.y_m + getattr(item, "depth_m", 0.0)
+            if far_x > enc.width_m + 1e-9 or far_y > enc.depth_m + 1e-9 or item.z_m > enc.height_m:
+                p.append(InputError(f"{key.rstrip('s')} {item.id!r} lies outside the enclosure",
+                                    path=path, line=line_of(f"{e}.{key}[{k}]", lines),
+                                    field=f"{e}.{key}[{k}]",
+                                    hint=f"box is {enc.width_m} x {enc.depth_m} x "
+                                         f"{enc.height_m} m (width x depth x height)"))
+        places = {"floor"} | {s.id for s in enc.surfaces} | {q.id for q in enc.positions}
+        for name in enc.time_budget:
+            if name not in places:
+                p.append(_missing_ref(name, places, f"{e}.time_budget.{name}",
+                                      "surface or position", path, lines))
+        if sum(enc.time_budget.values()) > 1 + 1e-6:
+            p.append(InputError("time budget shares add up to more than 1", path=path,
+                                line=line_of(f"{e}.time_budget", lines),
+                                field=f"{e}.time_budget",
+                                hint="shares are fractions of the active day"))
+    return p
+
+
+def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today: dt.date,
+                      dropped: dict[str, set[str]] | None = None) -> list[InputError]:
+    """Check readings against the site: known ids, dates, plausible values."""
+    dropped = dropped or {}
+    enclosures = {e.id: e for e in site.enclosures}
+    meters = {m.id for m in site.meters} | dropped.get("meters", set())
+    problems = []
+    for row in readings.itertuples(index=False):
+        where = {"path": root / "readings" / row.source_file, "line": int(row.source_line)}
+        enc = enclosures.get(row.enclosure)
+        if row.enclosure in dropped.get("enclosures", set()):
+            pass  # the enclosure itself is invalid; reported in site.toml
+        elif enc is None:
+            problems.append(_missing_ref(row.enclosure, enclosures, "enclosure", "enclosure",
+                                         **_at(where)))
+        else:
+            lamps = {lamp.id for lamp in enc.lamps}
+            if row.lamp and row.lamp not in lamps:
+                problems.append(_missing_ref(row.lamp, lamps, "lamp",
+                                             f"lamp in enclosure {enc.id!r}", **_at(where)))
+            spots = {"floor"} | {s.id for s in enc.surfaces} | {q.id for q in enc.positions}
+            if row.position and row.position not in spots:
+                problems.append(_missing_ref(row.position, spots, "position",
+                                             f"position in enclosure {enc.id!r} with",
+                                             **_at(where)))
+        if row.meter and row.meter not in meters:
+            problems.append(_missing_ref(row.meter, meters, "meter", "meter", **_at(where)))
+        if row.date.date() > today:
+            problems.append(InputError(f"date {row.date.date()} is in the future", field="date",
+                                       **where, hint=f"today is {today}; check the year"))
+        limit = PLAUSIBLE_MAX[row.quantity]
+        if row.value_si < 0:
+            problems.append(InputError(f"negative reading {row.value}", field="value", **where,
+                                       hint="meters read zero or more; check the sign"))
+        elif row.value_si > limit:
+            problems.append(InputError(
+                f"{row.quantity} of {row.value_si:g} is above {limit:g}, more than any lamp "
+                "or the sun gives", field="value", **where,
+                hint="check the unit column (e.g. uW/cm^2 written as W/m^2 is 100x too high)"))
+    return problems
+
+
+def _at(where: dict) -> dict:
+    """Adapt a readings location to ``_missing_ref``'s (path, lines) arguments."""
+    return {"path": where["path"], "lines": {}, "line": where["line"]}

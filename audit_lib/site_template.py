@@ -1,0 +1,116 @@
+"""The commented starting folder that ``light-audit new-site DIR`` writes."""
+
+STARTER_SITE_TOML = """\
+# Site file for an enclosure lighting audit. Format described in docs/site-format.md.
+# Lengths and irradiances state their unit: either in the key's name (height_m = 0.45)
+# or as a quoted quantity with a unit (height = "45 cm"). Ids: lower-case letters,
+# digits, '-' and '_' (they become file names). Dates: YYYY-MM-DD, unquoted.
+# The values below are an example to replace with your own.
+format_version = 1
+
+[site]
+name = "My collection"
+auditor = "Your name"             # shown on every report
+organisation = ""                 # optional
+client = ""                       # optional: for a consultant's client
+# logo = "logo.png"               # optional, relative to this folder
+latitude_deg = 51.5
+longitude_deg = -0.1
+time_zone = "Europe/London"       # IANA name
+audit_dates = [2026-01-15]
+
+[[meters]]
+id = "uvi-meter"
+name = "Handheld UV Index meter"
+# type: uv_index_meter, uvb_meter, uva_meter, lux_meter or spectroradiometer
+type = "uv_index_meter"
+calibration_date = 2025-06-01
+# spectral_response = "spectra/uvi-meter-response.csv"   # optional, for meter correction
+
+[[schedules]]
+id = "day-12h"
+kind = "fixed"                    # fixed or natural
+on = "08:00"
+off = "20:00"
+ramp_minutes = 30                 # dawn and dusk ramps
+
+# A lamp model describes a product once; enclosures place copies of it.
+[[lamp_models]]
+id = "uvb-tube-60cm"
+kind = "tube"                     # led_array, tube, point or from_readings
+name = "UVB fluorescent tube 60 cm"
+length = "60 cm"                  # same as length_m = 0.6
+reflector_factor = 1.6            # gain of the reflector behind the tube [-]
+reference = { distance = "30 cm", uvi = 2.0 }   # on-axis output when new
+# spectrum = "spectra/uvb-tube-60cm.csv"        # a measured spectrum, if you have one
+
+[[lamp_models.bands]]             # modelled spectrum: phosphor emission bands
+peak_nm = 313
+fwhm_nm = 40
+share = 0.3
+
+[[lamp_models.bands]]
+peak_nm = 350
+fwhm_nm = 50
+share = 0.7
+
+[[species]]                       # your own assignment; check with your own sources
+id = "example-lizard"
+scientific_name = "Example species"
+common_name = "Example lizard"
+zone = 3                          # Ferguson zone 1-4
+uv_provision = "gradient"         # gradient or basking_patch
+
+[[enclosures]]
+id = "viv-1"
+name = "Vivarium 1"
+width_m = 1.2                     # x, along the front
+depth_m = 0.6                     # y, front to back
+height_m = 0.6                    # z, up from the floor
+species = ["example-lizard"]
+keeper_working_distance = "40 cm"
+time_budget = { basking = 0.3, floor = 0.5, hide = 0.2 }   # shares of the day
+
+[[enclosures.surfaces]]
+id = "basking"
+kind = "basking"                  # basking, platform or hide
+x_m = 0.1
+y_m = 0.15
+width_m = 0.3
+depth_m = 0.3
+z_m = 0.25                        # height of the surface above the floor
+
+[[enclosures.surfaces]]
+id = "hide"
+kind = "hide"
+x_m = 0.9
+y_m = 0.2
+width_m = 0.25
+depth_m = 0.25
+z_m = 0.12
+
+[[enclosures.screens]]
+id = "mesh-top"
+kind = "mesh"
+wire_diameter = "0.8 mm"
+pitch = "4 mm"
+
+[[enclosures.lamps]]
+id = "tube-1"
+model = "uvb-tube-60cm"
+x_m = 0.4                         # lamp centre, enclosure frame
+y_m = 0.3
+z_m = 0.6                         # height above the floor
+tilt_deg = 0
+installed = 2025-09-01
+schedule = "day-12h"              # or daily_hours = 12
+screens = ["mesh-top"]
+"""
+
+STARTER_READINGS_CSV = """\
+# Readings, one per line. quantity: uvi, uvb_w_m2, uva_w_m2, vitamin_d_w_m2, illuminance_lux
+# unit: as the meter shows it (empty or UVI for uvi; e.g. uW/cm^2, W/m^2, lx)
+date,enclosure,lamp,position,x_m,y_m,z_m,distance_m,quantity,value,unit,meter,note
+2026-01-15,viv-1,tube-1,basking,,,,,uvi,2.1,UVI,uvi-meter,meter on the basking slate
+2026-01-15,viv-1,tube-1,hide,,,,,uvi,0.3,UVI,uvi-meter,on the hide roof
+"""
