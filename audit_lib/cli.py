@@ -43,6 +43,41 @@ def _run_spectrum(args) -> int:
     return 0
 
 
+def _add_check_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "check", help="validate a site folder and list every problem (exit status 2 if any)"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.set_defaults(handler=_run_check)
+
+
+def _run_check(args) -> int:
+    from audit_lib.site import check_site, load_site, summarise_site
+
+    problems = check_site(args.site)
+    if problems:
+        for problem in problems:
+            print(problem, file=sys.stderr)
+        print(f"{len(problems)} problem(s) found; nothing was computed", file=sys.stderr)
+        return 2
+    print(summarise_site(load_site(args.site)))
+    return 0
+
+
+def _add_new_site_parser(subparsers) -> None:
+    p = subparsers.add_parser("new-site", help="write a commented starting site folder")
+    p.add_argument("dir", help="the new site folder (created if needed)")
+    p.set_defaults(handler=_run_new_site)
+
+
+def _run_new_site(args) -> int:
+    from audit_lib.site import new_site
+
+    path = new_site(args.dir)
+    print(f"wrote {path}; edit it, then run 'light-audit check {args.dir}'")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser with every subcommand registered."""
     parser = argparse.ArgumentParser(
@@ -50,7 +85,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Audit the UV and visible lighting of reptile and amphibian enclosures.",
     )
     subparsers = parser.add_subparsers(dest="command", required=True)
-    for add in (_add_spectrum_parser,):
+    for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser,):
         add(subparsers)
     return parser
 
