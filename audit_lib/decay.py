@@ -1,0 +1,443 @@
+"""Lamp decay fits and replacement forecasts.
+
+Per lamp, the output measured at a fixed place (usually the basking-area UV Index) is
+fitted against lamp hours with two models, by weighted least squares
+(:func:`scipy.optimize.curve_fit`):
+
+* exponential: ``y = y0 * exp(-k * h)``  (k [h-1])
+* linear:      ``y = y0 - b * h``        (b [unit h-1])
+
+Both have two parameters, so Akaike's criterion for least squares,
+``AIC = n ln(RSS / n) + 2 p`` (Burnham & Anderson 2002, *Model Selection and Multimodel
+Inference*, 2nd ed., section 2.2), ranks them the same way as the residual sum of
+squares; the AIC difference is reported so a reader can judge how clear the choice is
+(differences under 2 mean "no real preference", same source, section 2.6).
+
+The forecast is the day the fitted output falls below the caller's threshold (the lower
+end of the zone's target range) given the lamp's daily hours. Its uncertainty band comes
+from drawing parameters from the fit's covariance (a normal approximation, seeded, so the
+result is reproducible) and taking the 16th and 84th percentiles of the crossing hours
+(a 68 % band, "one sigma").
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from audit_lib.errors import AuditWarning, InputError
+
+#: Fewest distinct lamp-hour values a fit needs (two parameters plus one degree of freedom).
+MIN_POINTS = 3
+
+#: States a lamp can be in, in the order a schedule sorts them.
+STATES = ("below target", "due soon", "ok", "no decay", "not enough data")
+
+#: A forecast this close to today (or closer) counts as "due soon" [days].
+DUE_SOON_DAYS = 90
+
+
+class DecayFitWarning(AuditWarning):
+    """A decay fit did not converge or gave no usable uncertainty."""
+
+
+def exponential_model(hours, y0, k):
+    """Exponential decay ``y0 * exp(-k h)``; ``hours`` [h], ``k`` [h-1]."""
+    return y0 * np.exp(-k * np.asarray(hours, dtype=float))
+
+
+def linear_model(hours, y0, b):
+    """Linear decay ``y0 - b h``; ``hours`` [h], ``b`` [unit h-1]."""
+    return y0 - b * np.asarray(hours, dtype=float)
+
+
+MODELS = {"exponential": exponential_model, "linear": linear_model}
+
+
+@dataclass(frozen=True)
+class ModelFit:
+    """One fitted decay model.
+
+    Attributes
+    ----------
+    model : str
+        ``"exponential"`` or ``"linear"``.
+    params : tuple of float
+        ``(y0, k)`` [unit, h-1] or ``(y0, b)`` [unit, unit h-1].
+    stderr : tuple of float
+        One-sigma standard errors of the parameters (NaN if not estimable).
+    covariance : numpy.ndarray
+        2 x 2 parameter covariance.
+    rss : float
+        Residual sum of squares [unit2].
+    aic : float
+        Akaike information criterion for least squares [-].
+    """
+
+    model: str
+    params: tuple[float, float]
+    stderr: tuple[float, float]
+    covariance: np.ndarray = field(repr=False)
+    rss: float
+    aic: float
+
+    def predict(self, hours) -> np.ndarray:
+        """Fitted output at ``hours`` [h]."""
+        return MODELS[self.model](hours, *self.params)
+
+    @property
+    def loss_per_1000h(self) -> float:
+        """Fraction of the initial output lost per 1000 lamp hours [-]."""
+        y0, rate = self.params
+        if self.model == "exponential":
+            return 1.0 - math.exp(-1000.0 * rate)
+        return 1000.0 * rate / y0 if y0 else math.nan
+
+    def hours_to_reach(self, threshold: float) -> float:
+        """Lamp hours at which the fitted output equals ``threshold`` [h].
+
+        0 if the start value is already at or below it; ``inf`` if the fit never reaches it.
+        """
+        return _crossing_hours(self.model, np.array([self.params]), threshold)[0]
+
+
+@dataclass(frozen=True)
+class DecayFit:
+    """Both decay models fitted to one lamp's readings.
+
+    Attributes
+    ----------
+    hours : numpy.ndarray
+        Lamp hours of the points [h].
+    values : numpy.ndarray
+        Output at those hours (e.g. UV Index) [unit].
+    state : str
+        ``"fitted"``, ``"no decay"`` (the output does not fall) or ``"not enough data"``.
+    fits : dict
+        ``{"exponential": ModelFit, "linear": ModelFit}`` (empty if not enough data).
+    best : str or None
+        Name of the model with the lower AIC.
+    delta_aic : float
+        AIC of the other model minus the best one's [-].
+    """
+
+    hours: np.ndarray
+    values: np.ndarray
+    state: str
+    fits: dict = field(default_factory=dict)
+    best: str | None = None
+    delta_aic: float = math.nan
+
+    @property
+    def best_fit(self) -> ModelFit | None:
+        """The better-fitting model, or None."""
+        return self.fits.get(self.best) if self.best else None
+
+
+def _crossing_hours(model: str, params: np.ndarray, threshold: float) -> np.ndarray:
+    """Crossing hours for each parameter row ``(y0, rate)`` [h]."""
+    y0, rate = params[:, 0], params[:, 1]
+    out = np.full(len(params), np.inf)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if model == "exponential":
+            hours = np.log(y0 / threshold) / rate
+        else:
+            hours = (y0 - threshold) / rate
+    falling = rate > 0
+    out[falling] = hours[falling]
+    out[y0 <= threshold] = 0.0
+    return np.maximum(out, 0.0)
+
+
+def _fit_one(model: str, hours: np.ndarray, values: np.ndarray, sigma) -> ModelFit:
+    from scipy.optimize import curve_fit
+
+    y0 = float(values[np.argmin(hours)])
+    span = float(np.ptp(hours)) or 1.0
+    slope = -float(np.polyfit(hours, values, 1)[0])
+    if model == "exponential":
+        p0 = (y0, max(slope / max(y0, 1e-12), 1e-3 / span))
+    else:
+        p0 = (y0, slope)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # OptimizeWarning for an infinite covariance
+        params, cov = curve_fit(MODELS[model], hours, values, p0=p0, sigma=sigma,
+                                absolute_sigma=sigma is not None, maxfev=10000)
+    resid = values - MODELS[model](hours, *params)
+    rss = float(np.sum(resid**2))
+    n = len(values)
+    aic = n * math.log(max(rss, 1e-300) / n) + 2 * len(params)
+    stderr = tuple(float(s) for s in np.sqrt(np.clip(np.diag(cov), 0, None)))
+    if not np.all(np.isfinite(cov)):
+        warnings.warn(f"{model} decay fit gave no parameter uncertainty", DecayFitWarning,
+                      stacklevel=3)
+    return ModelFit(model, tuple(float(p) for p in params), stderr, cov, rss, aic)
+
+
+def fit_decay(hours, values, *, sigma=None) -> DecayFit:
+    """Fit exponential and linear decay of output against lamp hours.
+
+    Parameters
+    ----------
+    hours : array_like
+        Lamp hours of each reading [h].
+    values : array_like
+        Output at the same place at each of those hours (e.g. basking UV Index) [unit].
+    sigma : array_like, optional
+        One-sigma uncertainty of each value (meter uncertainty) [unit]; if given it is
+        used as absolute, otherwise the scatter about the fit sets the uncertainty.
+
+    Returns
+    -------
+    DecayFit
+        Both fits, the better one by AIC, and a state: ``"not enough data"`` with fewer
+        than :data:`MIN_POINTS` distinct hours, ``"no decay"`` if the linear slope is not
+        positive (output steady or rising), else ``"fitted"``.
+    """
+    hours = np.asarray(hours, dtype=float)
+    values = np.asarray(values, dtype=float)
+    if hours.shape != values.shape or hours.ndim != 1:
+        raise InputError("hours and values must be 1-D arrays of the same length",
+                         field="hours")
+    ok = np.isfinite(hours) & np.isfinite(values)
+    hours, values = hours[ok], values[ok]
+    if sigma is not None:
+        sigma = np.asarray(sigma, dtype=float)[ok]
+    order = np.argsort(hours, kind="stable")
+    hours, values = hours[order], values[order]
+    if sigma is not None:
+        sigma = sigma[order]
+    if len(np.unique(hours)) < MIN_POINTS:
+        return DecayFit(hours, values, "not enough data")
+    if np.any(values < 0):
+        raise InputError("decay fit needs non-negative output values", field="values")
+    fits = {name: _fit_one(name, hours, values, sigma) for name in MODELS}
+    if fits["linear"].params[1] <= 0:
+        return DecayFit(hours, values, "no decay", fits)
+    if np.all(values > 0):
+        best = min(fits, key=lambda name: fits[name].aic)
+    else:
+        # log of a zero output is undefined for the exponential model: keep linear.
+        best = "linear"
+    other = "linear" if best == "exponential" else "exponential"
+    return DecayFit(hours, values, "fitted", fits, best, fits[other].aic - fits[best].aic)
+
+
+@dataclass(frozen=True)
+class Forecast:
+    """When a lamp's fitted output falls below a threshold.
+
+    Attributes
+    ----------
+    threshold : float
+        Output below which the lamp should be replaced [unit].
+    hours : float
+        Lamp hours at the crossing (best estimate) [h]; ``inf`` if never, NaN if unknown.
+    hours_low, hours_high : float
+        16th and 84th percentiles of the crossing hours [h].
+    date, date_early, date_late : pandas.Timestamp or NaT
+        The same as days, from the install day and daily hours.
+    """
+
+    threshold: float
+    hours: float
+    hours_low: float
+    hours_high: float
+    date: pd.Timestamp
+    date_early: pd.Timestamp
+    date_late: pd.Timestamp
+
+
+def _hours_to_date(installed_on, daily_hours: float, hours: float) -> pd.Timestamp:
+    if not math.isfinite(hours) or daily_hours <= 0:
+        return pd.NaT
+    days = math.ceil(hours / daily_hours)
+    return pd.Timestamp(installed_on).normalize() + pd.Timedelta(days=days)
+
+
+def forecast_crossing(fit: DecayFit, threshold: float, *, installed_on, daily_hours: float,
+                      model: str | None = None, draws: int = 4000, seed: int = 0) -> Forecast:
+    """Forecast the day the fitted output falls below ``threshold``.
+
+    Parameters
+    ----------
+    fit : DecayFit
+        Result of :func:`fit_decay` (state ``"fitted"``).
+    threshold : float
+        Lowest acceptable output, e.g. the lower end of the zone's basking UV Index range
+        supplied by the caller [unit].
+    installed_on : date-like
+        The lamp's install day.
+    daily_hours : float
+        Hours the lamp is on per day [h].
+    model : str, optional
+        Model to use; defaults to ``fit.best``.
+    draws : int
+        Parameter draws for the band [-].
+    seed : int
+        Random seed for the draws [-].
+
+    Returns
+    -------
+    Forecast
+        Best estimate and 68 % band, in lamp hours and as dates.
+    """
+    if threshold <= 0:
+        raise InputError(f"threshold must be positive, got {threshold!r}", field="threshold")
+    if fit.state != "fitted":
+        nan = math.nan
+        return Forecast(threshold, nan, nan, nan, pd.NaT, pd.NaT, pd.NaT)
+    mf: ModelFit = fit.fits[model or fit.best]
+    best = mf.hours_to_reach(threshold)
+    cov = mf.covariance
+    if np.all(np.isfinite(cov)):
+        rng = np.random.default_rng(seed)
+        sample = rng.multivariate_normal(mf.params, cov, size=draws, check_valid="ignore")
+        crossing = _crossing_hours(mf.model, sample, threshold)
+        low, high = (float(v) for v in np.percentile(crossing, [16, 84]))
+    else:
+        low = high = math.nan
+    dates = [_hours_to_date(installed_on, daily_hours, h) for h in (best, low, high)]
+    return Forecast(threshold, best, low, high, *dates)
+
+
+def select_decay_points(readings: pd.DataFrame, installs: pd.DataFrame, enclosure: str,
+                        lamp: str, *, quantity: str = "uvi", position: str | None = None,
+                        today=None) -> pd.DataFrame:
+    """Pick one lamp's readings since its current install, one point per audit day.
+
+    Parameters
+    ----------
+    readings : pandas.DataFrame
+        Readings (contract columns; e.g. :func:`audit_lib.history.read_all_readings`).
+    installs : pandas.DataFrame
+        Lamp installs (:func:`audit_lib.history.read_lamp_installs`).
+    enclosure, lamp : str
+        Identifiers.
+    quantity : str
+        Quantity fitted, ``"uvi"`` by default.
+    position : str, optional
+        Measuring position to use; by default ``"basking"`` if the lamp has readings
+        there, else the position with most readings. Mixing positions would mix
+        distances, so only one is used.
+    today : date-like, optional
+        Day of the schedule (default: today).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``date``, ``hours`` [h], ``value`` (mean ``value_si`` that day),
+        ``position``; empty if the lamp has no install on record.
+    """
+    from audit_lib.history import find_install, lamp_hours
+
+    today = pd.Timestamp.today().normalize() if today is None else pd.Timestamp(today)
+    columns = ["date", "hours", "value", "position"]
+    install = find_install(installs, enclosure, lamp, today)
+    sel = readings[(readings["enclosure"] == enclosure) & (readings["lamp"] == lamp)
+                   & (readings["quantity"] == quantity)]
+    if install is None or sel.empty:
+        return pd.DataFrame(columns=columns)
+    sel = sel[pd.to_datetime(sel["date"]) >= install["installed_on"]]
+    positions = sel["position"].fillna("").astype(str)
+    if position is None:
+        counts = positions.value_counts()
+        position = "basking" if "basking" in counts.index else (
+            str(counts.index[0]) if len(counts) else "")
+    sel = sel[positions == position]
+    points = sel.groupby(pd.to_datetime(sel["date"]))["value_si"].mean().reset_index()
+    points.columns = ["date", "value"]
+    points["hours"] = [lamp_hours(install["installed_on"], install["daily_hours"], d)
+                       for d in points["date"]]
+    points["position"] = position
+    return points[columns]
+
+
+def _threshold_for(thresholds, enclosure: str, lamp: str) -> float:
+    if isinstance(thresholds, (int, float)):
+        return float(thresholds)
+    for key in ((enclosure, lamp), enclosure):
+        if key in thresholds:
+            return float(thresholds[key])
+    return math.nan
+
+
+def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresholds, *,
+                         today=None, quantity: str = "uvi") -> pd.DataFrame:
+    """Site-wide lamp replacement schedule, one row per lamp in place today.
+
+    Parameters
+    ----------
+    readings : pandas.DataFrame
+        Every reading of the site (contract columns).
+    installs : pandas.DataFrame
+        Lamp installs (:func:`audit_lib.history.read_lamp_installs`).
+    thresholds : float or dict
+        Lowest acceptable output (e.g. lower end of each enclosure's basking UV Index range):
+        one number for all, or a dict keyed by ``(enclosure, lamp)`` or ``enclosure`` [unit].
+    today : date-like, optional
+        Day of the schedule (default: today).
+    quantity : str
+        Quantity fitted [-].
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``enclosure``, ``lamp``, ``lamp_model``, ``installed_on``, ``hours_now`` [h],
+        ``points``, ``model``, ``loss_per_1000h_pct`` [%], ``last_value``, ``target_min``,
+        ``replace_by`` (forecast date), ``replace_by_early``, ``replace_by_late`` (68 %
+        band), ``state`` (one of :data:`STATES`), sorted by state then date.
+    """
+    from audit_lib.history import lamp_hours
+
+    today = pd.Timestamp.today().normalize() if today is None else pd.Timestamp(today)
+    current = installs[(installs["installed_on"] <= today)
+                       & (installs["removed_on"].isna() | (installs["removed_on"] > today))]
+    rows = []
+    for install in current.itertuples(index=False):
+        enclosure, lamp = install.enclosure, install.lamp
+        target = _threshold_for(thresholds, enclosure, lamp)
+        points = select_decay_points(readings, installs, enclosure, lamp, quantity=quantity,
+                                     today=today)
+        fit = fit_decay(points["hours"], points["value"])
+        hours_now = lamp_hours(install.installed_on, install.daily_hours, today)
+        row = {
+            "enclosure": enclosure, "lamp": lamp, "lamp_model": install.lamp_model,
+            "installed_on": install.installed_on, "hours_now": hours_now,
+            "points": len(points), "model": fit.best or "", "loss_per_1000h_pct": math.nan,
+            "last_value": float(points["value"].iloc[-1]) if len(points) else math.nan,
+            "target_min": target, "replace_by": pd.NaT, "replace_by_early": pd.NaT,
+            "replace_by_late": pd.NaT, "state": fit.state,
+        }
+        if fit.state == "fitted" and math.isfinite(target):
+            best = fit.best_fit
+            row["loss_per_1000h_pct"] = 100.0 * best.loss_per_1000h
+            fc = forecast_crossing(fit, target, installed_on=install.installed_on,
+                                   daily_hours=install.daily_hours)
+            row.update(replace_by=fc.date, replace_by_early=fc.date_early,
+                       replace_by_late=fc.date_late)
+            if best.predict(hours_now) < target:
+                row["state"] = "below target"
+            elif pd.notna(fc.date) and fc.date <= today + pd.Timedelta(days=DUE_SOON_DAYS):
+                row["state"] = "due soon"
+            else:
+                row["state"] = "ok"
+        elif fit.state == "fitted":
+            row["state"] = "ok"
+            row["loss_per_1000h_pct"] = 100.0 * fit.best_fit.loss_per_1000h
+        if row["last_value"] < target:  # a measured value below target overrides the fit
+            row["state"] = "below target"
+        rows.append(row)
+    columns = ["enclosure", "lamp", "lamp_model", "installed_on", "hours_now", "points",
+               "model", "loss_per_1000h_pct", "last_value", "target_min", "replace_by",
+               "replace_by_early", "replace_by_late", "state"]
+    table = pd.DataFrame(rows, columns=columns)
+    if table.empty:
+        return table
+    table["_rank"] = table["state"].map(STATES.index)
+    table = table.sort_values(["_rank", "replace_by", "enclosure", "lamp"], na_position="last")
+    return table.drop(columns="_rank").reset_index(drop=True)
