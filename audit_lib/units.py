@@ -30,7 +30,8 @@ SI_UNITS: dict[str, tuple[str, tuple[str, ...]]] = {
     "time": ("s", ("s", "min", "h", "d")),
 }
 
-_SUPERSCRIPTS = str.maketrans({"²": "^2", "³": "^3", "⁻": "^-", "¹": "1", "·": "*", "−": "-"})
+_SUPERSCRIPT_DIGITS = str.maketrans("⁻⁰¹²³⁴⁵⁶⁷⁸⁹", "-0123456789")
+_SUPERSCRIPT_RUN = re.compile("[⁻⁰¹²³⁴⁵⁶⁷⁸⁹]+")
 
 
 @functools.lru_cache(maxsize=1)
@@ -58,7 +59,8 @@ def normalise_unit(unit: str) -> str:
     str
         The normalised string, e.g. ``"uW*cm^-2*nm^-1"``.
     """
-    text = unit.strip().replace("µ", "u").replace("μ", "u").translate(_SUPERSCRIPTS)
+    text = unit.strip().replace("µ", "u").replace("μ", "u").replace("·", "*").replace("−", "-")
+    text = _SUPERSCRIPT_RUN.sub(lambda m: "^" + m.group(0).translate(_SUPERSCRIPT_DIGITS), text)
     text = text.replace("**", "^")
     text = re.sub(r"\^\s*\(\s*(-?\d+)\s*\)", r"^\1", text)
     text = re.sub(r"\^\s*(-?\d+)", r"^\1", text)
