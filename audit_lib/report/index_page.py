@@ -1,0 +1,127 @@
+"""The batch run's ``index.html``: every enclosure with its verdict, report link and failures.
+
+Plain string building with :func:`html.escape` on every piece of text that comes from a
+site file or an error message; the style sheet is the report template's, inlined, so the
+page is one self-contained file with no script at all.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from html import escape
+from pathlib import Path
+
+from audit_lib.report.cautions import CAUTIONS
+
+_CSS = Path(__file__).resolve().parents[2] / "templates" / "audit" / "static" / "report.css"
+
+
+def state_class(state: str | None) -> str:
+    """Return the CSS class for a verdict or check state ("state-within-range")."""
+    slug = re.sub(r"[^a-z0-9]+", "-", (state or "unknown").lower()).strip("-")
+    return f"state-{slug or 'unknown'}"
+
+
+def _badge(state: str | None) -> str:
+    text = state or "unknown"
+    return f'<span class="state {state_class(text)}">{escape(text)}</span>'
+
+
+def _link(href: str | None, text: str) -> str:
+    if not href:
+        return ""
+    return f'<a href="{escape(href, quote=True)}">{escape(text)}</a>'
+
+
+def _row(outcome) -> str:
+    if outcome.error:
+        verdict = _badge("could not be audited")
+        notes = f'<span class="error">{escape(outcome.error)}</span>'
+    elif outcome.verdict is None:
+        verdict = _badge("not run")
+        notes = "not audited in this run"
+    else:
+        verdict = _badge(outcome.verdict)
+        off = [c for c in outcome.checks if c.get("state") not in (None, "within range")]
+        notes = "; ".join(escape(f"{c.get('name')}: {c.get('reason', '')}") for c in off[:4])
+        if len(off) > 4:
+            notes += f"; and {len(off) - 4} more"
+    links = " · ".join(filter(None, (_link(outcome.report, "report"),
+                                     _link(outcome.notebook, "notebook"))))
+    return (f"<tr><td>{escape(outcome.id)}</td><td>{escape(outcome.name)}</td>"
+            f"<td>{verdict}</td><td>{notes}</td><td>{links}</td></tr>")
+
+
+def render_index(site_name: str, outcomes, *, facts=(), overview=None,
+                 generated: dt.datetime | None = None, library_version: str = "") -> str:
+    """Return the index page of a batch run as one HTML document.
+
+    Parameters
+    ----------
+    site_name : str
+        The site's name (escaped here).
+    outcomes : sequence of EnclosureOutcome
+        One per enclosure, in site order (``id``, ``name``, ``verdict``, ``report``,
+        ``notebook``, ``checks``, ``error``; links relative to the index).
+    facts : sequence of (label, value)
+        Shown under the title (auditor, audit date, ...).
+    overview : EnclosureOutcome, optional
+        The site overview report, linked at the top when it ran.
+    generated : datetime, optional
+        When the run ended (default now, UTC).
+    library_version : str
+        Shown in the provenance block.
+    """
+    generated = generated or dt.datetime.now(dt.timezone.utc)
+    failed = [o for o in outcomes if o.error]
+    if overview is not None and overview.error:
+        failed.append(overview)
+    done = [o for o in outcomes if o.verdict is not None and not o.error]
+    facts_html = "".join(f"<div><dt>{escape(str(k))}</dt><dd>{escape(str(v))}</dd></div>"
+                         for k, v in facts)
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1.0">',
+        f"<title>Lighting audit: {escape(site_name)}</title>",
+        f"<style>\n{_CSS.read_text(encoding='utf-8')}\n</style></head>",
+        '<body class="audit-report">',
+        '<header class="report-header"><div class="report-heading">',
+        '<p class="report-kind">Lighting audit: site index</p>',
+        f'<h1 class="report-title">{escape(site_name)}</h1>',
+        f'<dl class="report-facts">{facts_html}</dl></div></header>',
+        '<main class="report-body">',
+        '<div class="site-summary">',
+        f"<div><strong>{len(outcomes)}</strong> enclosures</div>",
+        f"<div><strong>{len(done)}</strong> audited</div>",
+        f"<div><strong>{len(failed)}</strong> could not be audited</div></div>",
+    ]
+    if overview is not None and overview.report:
+        parts.append(f"<p>{_link(overview.report, 'Site overview report')}</p>")
+    parts += [
+        "<h2>Enclosures</h2>",
+        '<table id="verdicts"><thead><tr><th>Id</th><th>Name</th><th>Verdict</th>'
+        "<th>Checks outside range, or error</th><th>Files</th></tr></thead><tbody>",
+        *(_row(o) for o in outcomes),
+        "</tbody></table>",
+    ]
+    if failed:
+        items = "".join(f"<li><strong>{escape(o.id)}</strong>: {escape(o.error)}</li>"
+                        for o in failed)
+        parts.append(f'<section class="failures"><h2>Could not be audited</h2><ul>{items}</ul>'
+                     "<p>Fix the cause and run again; finished reports are kept.</p></section>")
+    parts += [
+        "</main>",
+        '<section class="report-cautions"><h2>Cautions</h2><ul>',
+        *(f"<li>{escape(c)}</li>" for c in CAUTIONS),
+        "</ul></section>",
+        '<footer class="report-provenance"><h2>Provenance</h2><dl>',
+        f"<div><dt>Generated</dt><dd>{escape(generated.isoformat(timespec='seconds'))}</dd></div>",
+        f"<div><dt>Library version</dt><dd>audit_lib {escape(library_version)}</dd></div>",
+        "<div><dt>Machine-readable results</dt><dd>"
+        '<a href="results.json">results.json</a> · <a href="results.csv">results.csv</a>'
+        "</dd></div></dl></footer>",
+        "</body></html>",
+    ]
+    return "\n".join(parts)
