@@ -11,7 +11,8 @@ Both have two parameters, so Akaike's criterion for least squares,
 ``AIC = n ln(RSS / n) + 2 p`` (Burnham & Anderson 2002, *Model Selection and Multimodel
 Inference*, 2nd ed., section 2.2), ranks them the same way as the residual sum of
 squares; the AIC difference is reported so a reader can judge how clear the choice is
-(differences under 2 mean "no real preference", same source, section 2.6).
+(differences under about 2 mean "no real preference"; same source, section 2.6, from
+memory).
 
 The forecast is the day the fitted output falls below the caller's threshold (the lower
 end of the zone's target range) given the lamp's daily hours. Its uncertainty band comes

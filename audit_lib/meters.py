@@ -10,11 +10,16 @@ UVB LED, say) it reads high or low. The *spectral mismatch correction factor* fi
     corrected reading = F* × raw reading
 
 with E_lamp the lamp spectrum, E_cal the calibration source spectrum and s_t the target
-action spectrum (erythema for a UV Index meter). This is the correction factor of
-CIE S 017:2020 term 17-25-115 ("spectral mismatch correction factor", whose note 3 extends
-it to actinic radiometers), applied to UV radiometers in CIE 220:2016 section 4.2.1. The
-photovoltaic standard IEC 60904-7 writes the same quantity the other way up as the
-spectral mismatch factor MM = 1 / F* (measured value divided by MM); both are returned.
+action spectrum (erythema for a UV Index meter). This is the spectral mismatch correction
+factor defined in CIE S 017:2020 (ILV) term 17-25-115, whose note 3 extends it from
+photometers to actinic radiometers; CIE 220:2016 ("Characterization and calibration
+methods of UV radiometers", section 4.2.1) applies it to UV radiometers. The equation above
+is the standard form (written from memory, consistent with that definition; the ILV
+entry gives it for a V(λ) photometer calibrated with CIE illuminant A). The photovoltaic
+standard IEC 60904-7 writes the same quantity the other way up as the spectral mismatch
+factor MM = 1 / F* (measured value divided by MM), which is what
+``pvlib.spectrum.calc_spectral_mismatch_field`` computes for a flat target response;
+both are returned.
 
 Integration: every function is linearly interpolated onto the union of all input
 wavelength grids, counted as zero outside its own range, and integrated with the

@@ -60,7 +60,7 @@ def test_forecast_of_noise_free_exponential_is_analytic():
 
 def test_forecast_band_matches_delta_method_for_linear_model():
     """For the linear model h = (y0 - T) / b; first-order error propagation (delta method,
-    e.g. JCGM 100:2008 GUM eq. 13) of the fit covariance gives a standard deviation that
+    JCGM 100:2008 GUM section 5.2, from memory) of the fit covariance gives a standard deviation that
     the 16-84 % band of the parameter draws reproduces within 15 %."""
     rng = np.random.default_rng(3)
     hours = np.linspace(0, 6000, 8)

@@ -74,8 +74,9 @@ def test_hand_computed_three_point_case():
 
 def test_long_wave_meter_under_reads_short_wave_led():
     """A meter whose response is shifted 10 nm longer than erythema, calibrated on the sun,
-    under-reads a 295 nm LED relative to a 313 nm one, so F*(295) > F*(313) (the direction
-    CIE 220:2016 section 4.2 describes for mismatched UV radiometers)."""
+    weights 295 nm less (relative to 313 nm) than erythema does, so the F* formula
+    (CIE S 017:2020 17-25-115) must give F*(295) > F*(313): a direction check of the
+    formula, not a published number."""
     meter = meters.MeterResponse(WL, erythema_cie1998(WL - 10.0), "shifted")
     f295 = meters.spectral_mismatch(meter, led(295.0)).correction_factor
     f313 = meters.spectral_mismatch(meter, led(313.0)).correction_factor
