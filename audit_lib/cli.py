@@ -78,6 +78,30 @@ def _run_new_site(args) -> int:
     return 0
 
 
+def _add_run_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "run", help="audit every enclosure of a site: HTML reports, index.html, results.json/csv"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("--out", required=True, help="output folder for reports and results")
+    p.add_argument("--jobs", type=int, default=None, help="worker processes (default: CPUs)")
+    p.add_argument("--only", nargs="+", metavar="ID", help="audit only these enclosure ids")
+    p.add_argument("--audit-date", help="audit date passed to the workbooks (YYYY-MM-DD)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(handler=_run_run)
+
+
+def _run_run(args) -> int:
+    from audit_lib.batch import run_batch
+
+    result = run_batch(args.site, args.out, jobs=args.jobs, only=args.only,
+                       audit_date=args.audit_date, progress=not args.quiet)
+    for failed in result.failures:
+        print(f"could not audit {failed.id}: {failed.error}", file=sys.stderr)
+    print(result.index_path)
+    return 1 if result.failures else 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser with every subcommand registered."""
     parser = argparse.ArgumentParser(
@@ -85,7 +109,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Audit the UV and visible lighting of reptile and amphibian enclosures.",
     )
     subparsers = parser.add_subparsers(dest="command", required=True)
-    for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser,):
+    for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,):
         add(subparsers)
     return parser
 
