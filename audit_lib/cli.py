@@ -102,6 +102,53 @@ def _run_run(args) -> int:
     return 1 if result.failures else 0
 
 
+def _add_import_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "import", help="import a site's readings and lamp installs into its history database"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("files", nargs="*", help="readings files (default: every file in SITE/readings)")
+    p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
+    p.set_defaults(handler=_run_import)
+
+
+def _run_import(args) -> int:
+    from audit_lib.forecast import import_site_readings
+
+    for s in import_site_readings(args.site, args.files, db_path=args.db):
+        state = "already imported" if s.already_imported else f"{s.rows_added} added"
+        print(f"{s.source_file}: {s.rows_in_input} readings, {state}, "
+              f"{s.rows_already_stored} already stored")
+    return 0
+
+
+def _add_forecast_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "forecast", help="lamp decay fits and replacement dates from a site's history"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
+    p.add_argument("--date", help="day of the schedule, YYYY-MM-DD (default: today)")
+    p.add_argument("--target-uvi", type=float,
+                   help="one basking UV Index threshold for all lamps (default: zone ranges)")
+    p.add_argument("--csv", help="also write the schedule to this CSV file")
+    p.set_defaults(handler=_run_forecast)
+
+
+def _run_forecast(args) -> int:
+    import datetime as dt
+
+    from audit_lib.forecast import format_schedule, site_replacement_schedule
+
+    today = dt.date.fromisoformat(args.date) if args.date else None
+    table = site_replacement_schedule(args.site, db_path=args.db, today=today,
+                                      target_uvi=args.target_uvi)
+    print(format_schedule(table))
+    if args.csv:
+        table.to_csv(args.csv, index=False, date_format="%Y-%m-%d")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser with every subcommand registered."""
     parser = argparse.ArgumentParser(
@@ -109,7 +156,8 @@ def build_parser() -> argparse.ArgumentParser:
         description="Audit the UV and visible lighting of reptile and amphibian enclosures.",
     )
     subparsers = parser.add_subparsers(dest="command", required=True)
-    for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,):
+    for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,
+                _add_import_parser, _add_forecast_parser):
         add(subparsers)
     return parser
 

@@ -1,0 +1,92 @@
+"""Tests of the site history glue and the import/forecast commands (audit_lib.forecast)."""
+
+import math
+from types import SimpleNamespace
+
+import pandas as pd
+import pytest
+
+from audit_lib import cli, forecast, history
+from audit_lib.site import new_site
+
+K_PER_H = 5e-5  # synthetic exponential decay rate [h-1]
+INSTALLED = pd.Timestamp("2025-09-01")  # install day of tube-1 in the starter site
+DAYS = (1, 136, 273, 426)
+
+
+@pytest.fixture
+def site(tmp_path):
+    """The starter site of ``light-audit new-site`` with four audits of synthetic decay."""
+    root = tmp_path / "site"
+    new_site(root)
+    lines = ["date,enclosure,lamp,position,x_m,y_m,z_m,distance_m,quantity,value,unit,meter,note"]
+    for d in DAYS:
+        date = (INSTALLED + pd.Timedelta(days=d)).date().isoformat()
+        value = 4.0 * math.exp(-K_PER_H * 12 * d)
+        lines.append(f"{date},viv-1,tube-1,basking,,,,,uvi,{value:.5f},UVI,uvi-meter,")
+        lines.append(f"{date},viv-1,tube-1,hide,,,,,uvi,0.3,UVI,uvi-meter,")
+    (root / "readings" / "first-audit.csv").write_text("\n".join(lines) + "\n")
+    return root
+
+
+def test_import_and_forecast_commands(site, capsys):
+    """`light-audit import` is idempotent and `forecast` prints the schedule; the forecast
+    day follows from y = 4 exp(-k h) = 2.9 (zone 3 lower basking UVI in the shipped zone
+    table): h = ln(4 / 2.9) / k (algebra), at 12 h per day from the install day."""
+    assert cli.main(["import", str(site)]) == 0
+    assert "8 readings, 8 added" in capsys.readouterr().out
+    assert cli.main(["import", str(site)]) == 0
+    assert "already imported" in capsys.readouterr().out
+    assert (site / "history.sqlite").is_file()
+
+    assert cli.main(["forecast", str(site), "--date", "2026-12-01",
+                     "--csv", str(site / "schedule.csv")]) == 0
+    out = capsys.readouterr().out
+    expected = INSTALLED + pd.Timedelta(days=math.ceil(math.log(4 / 2.9) / K_PER_H / 12))
+    row = out.splitlines()[1]
+    assert row.startswith("viv-1") and "exponential" in row and "due soon" in row
+    table = pd.read_csv(site / "schedule.csv", parse_dates=["replace_by"])
+    assert abs((table.loc[0, "replace_by"] - expected).days) <= 1
+    assert table.loc[0, "target_min"] == 2.9
+    assert table.loc[0, "loss_per_1000h_pct"] == pytest.approx(
+        100 * (1 - math.exp(-1000 * K_PER_H)), rel=1e-3)
+
+    assert cli.main(["forecast", str(site), "--date", "2026-12-01", "--target-uvi", "1.0"]) == 0
+    assert "ok" in capsys.readouterr().out.splitlines()[1]
+
+
+def test_forecast_without_history_is_an_input_error(site, capsys):
+    """No database yet: exit status 2 and a hint (project CLI rule: bad input exits 2)."""
+    assert cli.main(["forecast", str(site)]) == 2
+    assert "no history database yet (hint: run 'light-audit import" in capsys.readouterr().err
+
+
+def test_invalid_site_writes_nothing(site, capsys):
+    """An invalid site is not imported: nothing is written (issue 5, validation)."""
+    path = site / "readings" / "first-audit.csv"
+    path.write_text(path.read_text() + "2025-09-10,no-such-enclosure,,,,,,,uvi,1.0,UVI,,\n")
+    assert cli.main(["import", str(site)]) == 2
+    assert "no-such-enclosure" in capsys.readouterr().err
+    assert not (site / "history.sqlite").exists()
+
+
+def test_lamp_installs_recorded_from_site(site):
+    """Install day and schedule hours (08:00-20:00 = 12 h, clock arithmetic) reach the
+    store, so lamp hours on 2026-01-15 are 136 days x 12 h."""
+    forecast.import_site_readings(site)
+    db = site / "history.sqlite"
+    assert history.lamp_hours_at(db, "viv-1", "tube-1", "2026-01-15") == 136 * 12
+
+
+def test_schedule_daily_hours():
+    """On-off spans by clock arithmetic, past midnight and averaged over months; natural
+    day length averages about 12 h over a year (common practice)."""
+    fixed = SimpleNamespace(kind="fixed", on="08:00", off="20:00", periods=[])
+    assert forecast.schedule_daily_hours(fixed) == 12.0
+    night = SimpleNamespace(kind="fixed", on="20:00", off="06:30", periods=[])
+    assert forecast.schedule_daily_hours(night) == 10.5
+    summer = SimpleNamespace(months=[5, 6, 7, 8, 9, 10], on="07:00", off="21:00")
+    seasonal = SimpleNamespace(kind="fixed", on="09:00", off="19:00", periods=[summer])
+    assert forecast.schedule_daily_hours(seasonal) == pytest.approx((6 * 14 + 6 * 10) / 12)
+    natural = SimpleNamespace(kind="natural", on=None, off=None, periods=[])
+    assert forecast.schedule_daily_hours(natural) == forecast.NATURAL_DAY_HOURS
