@@ -186,21 +186,21 @@ def _run_task(task: dict) -> dict:
 
 
 def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str | None,
-           overview: bool) -> list[dict]:
+           workbook: Path, overview: Path | None) -> list[dict]:
     tasks = []
     for enclosure_id in ids:
         params = {"site_dir": str(site_dir), "enclosure_id": enclosure_id}
         if audit_date:
             params["audit_date"] = audit_date
         tasks.append({"id": enclosure_id, "name": site.enclosure(enclosure_id).name,
-                      "stem": safe_stem(enclosure_id), "workbook": str(ENCLOSURE_WORKBOOK),
+                      "stem": safe_stem(enclosure_id), "workbook": str(workbook),
                       "parameters": params, "out_dir": str(out_dir)})
-    if overview:
+    if overview is not None:
         params = {"site_dir": str(site_dir)}
         if audit_date:
             params["audit_date"] = audit_date
         tasks.append({"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
-                      "workbook": str(OVERVIEW_WORKBOOK), "parameters": params,
+                      "workbook": str(overview), "parameters": params,
                       "out_dir": str(out_dir), "overview": True})
     return tasks
 
@@ -304,7 +304,7 @@ def _execute(tasks: list[dict], jobs: int, progress: bool) -> list[dict]:
 
 def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
               audit_date: str | None = None, overview: bool = True,
-              progress: bool = True) -> BatchResult:
+              progress: bool = True, workbook=None, overview_workbook=None) -> BatchResult:
     """Audit every enclosure of a site and write the reports, index and results files.
 
     Parameters
@@ -323,6 +323,9 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         Also run the site overview workbook.
     progress : bool
         Show a progress bar on standard error.
+    workbook, overview_workbook : str or PathLike, optional
+        Workbooks to run instead of ``workbooks/enclosure_report.ipynb`` and
+        ``workbooks/site_overview.ipynb`` (same parameters and report-data cell).
 
     Raises
     ------
@@ -341,8 +344,10 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     for stale in (out_dir / REPORTS_DIR).glob(".*.part-*"):
         stale.unlink(missing_ok=True)
     previous = _previous(out_dir, site.name)
-    tasks = _tasks(site, site_dir, out_dir, ids, audit_date,
-                   overview and OVERVIEW_WORKBOOK.exists())
+    workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()
+    overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
+    tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook,
+                   overview_workbook if overview and overview_workbook.exists() else None)
     jobs = max(1, min(jobs or os.cpu_count() or 1, len(tasks)))
     by_id = {d["id"]: d for d in _execute(tasks, jobs, progress)}
 
