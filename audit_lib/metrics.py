@@ -34,6 +34,7 @@ from audit_lib.errors import AuditWarning
 UVI_PER_W_M2 = 40.0  #: UV Index per W m-2 of erythemal irradiance [m2 W-1] (WHO 2002)
 SED_J_M2 = 100.0  #: one standard erythema dose [J m-2] (CIE S 007 / ISO 17166)
 LUMINOUS_EFFICACY_LM_W = 683.002  #: K_m [lm W-1] (CIE 018:2019)
+MAX_DUV_FOR_CCT = 0.05  #: CCT is reported only within this |Duv| of the locus [-]
 ACTINIC_LIMIT_J_M2 = 30.0  #: effective actinic dose limit in 8 h [J m-2] (ICNIRP 2004)
 UVA_EYE_DOSE_J_M2 = 1.0e4  #: UVA eye dose limit for t ≤ 1000 s [J m-2] (IEC 62471 §4.3.2)
 UVA_EYE_IRRADIANCE_W_M2 = 10.0  #: UVA eye irradiance limit beyond 1000 s [W m-2]
@@ -148,26 +149,34 @@ def weighted_quantities(wavelength_nm, irradiance_w_m2_nm) -> dict[str, np.ndarr
     return {q: values[..., i] for i, q in enumerate(QUANTITIES)}
 
 
-def coverage_gaps(wavelength_nm) -> dict[str, float]:
-    """Share of each weighting range [-] that a wavelength grid does not cover.
+def coverage_gaps(wavelength_nm, threshold: float = 1e-3) -> dict[str, float]:
+    """Share of each weighting function [-] that a wavelength grid does not cover.
+
+    The share is weighted: 1 − ∫ s(λ) dλ over the covered part / ∫ s(λ) dλ over the whole
+    range, so a grid ending at 800 nm misses almost nothing of V(λ).
 
     Parameters
     ----------
     wavelength_nm : array_like
         Measurement grid [nm].
+    threshold : float
+        Smallest share reported [-].
 
     Returns
     -------
     dict of str to float
-        Only the quantities with a gap (share of their wavelength range missing).
+        Only the quantities with a gap above ``threshold``.
     """
     lo, hi = float(np.min(wavelength_nm)), float(np.max(wavelength_nm))
     gaps = {}
     for q in ("uvb_w_m2", "uva_w_m2", "erythemal_w_m2", "vitamin_d_w_m2", "illuminance_lux"):
-        a, b = QUANTITY_DEFINITIONS[q][:2]
-        missing = max(0.0, lo - a) + max(0.0, b - hi)
-        if missing > 0:
-            gaps[q] = min(1.0, missing / (b - a))
+        a, b, weighting, _ = QUANTITY_DEFINITIONS[q]
+        grid = np.linspace(a, b, 2001)
+        s = weighting(grid)
+        covered = np.where((grid >= lo) & (grid <= hi), s, 0.0)
+        share = 1.0 - np.trapezoid(covered, grid) / np.trapezoid(s, grid)
+        if share > threshold:
+            gaps[q] = float(share)
     return gaps
 
 
@@ -360,7 +369,9 @@ def correlated_colour_temperature(wavelength_nm, irradiance_w_m2_nm) -> float:
     Returns
     -------
     float
-        CCT [K]; NaN for a spectrum with no visible light.
+        CCT [K]; NaN for a spectrum with no visible light, or whose chromaticity lies
+        more than 0.05 (|Duv|) from the Planckian locus, where CCT has no meaning
+        (CIE 015:2018 §9.5; the 0.05 bound is common practice).
     """
     import colour
 
@@ -374,7 +385,9 @@ def correlated_colour_temperature(wavelength_nm, irradiance_w_m2_nm) -> float:
         if not np.all(np.isfinite(xyz)) or xyz[1] <= 0:
             return float("nan")
         uv = colour.xy_to_UCS_uv(colour.XYZ_to_xy(xyz))
-        cct, _duv = colour.temperature.uv_to_CCT(uv, method="Ohno 2013")
+        cct, duv = colour.temperature.uv_to_CCT(uv, method="Ohno 2013")
+    if abs(duv) > MAX_DUV_FOR_CCT:
+        return float("nan")
     return float(cct)
 
 
@@ -406,8 +419,8 @@ def spectrum_metrics(spectrum) -> dict:
     gaps = coverage_gaps(wl)
     for name, share in gaps.items():
         warnings.warn(
-            f"{spectrum.name or 'spectrum'} covers {wl[0]:g}–{wl[-1]:g} nm: {share:.0%} of the "
-            f"range of {name} is missing and counts as zero",
+            f"{spectrum.name or 'spectrum'} covers {wl[0]:g}–{wl[-1]:g} nm: {share:.1%} of the "
+            f"weighting range of {name} is not covered and counts as zero",
             CoverageWarning,
             stacklevel=2,
         )
@@ -469,17 +482,20 @@ def format_metrics_table(metrics: dict, title: str = "") -> str:
     """Render :func:`spectrum_metrics` as an aligned plain-text table."""
     rows = []
     for key, (label, unit) in METRIC_LABELS.items():
-        value = metrics.get(key)
-        if value is None:
-            text = "unlimited" if key.endswith("limit_s") else "n/a"
-        elif isinstance(value, str):
-            text = value
-        else:
-            text = f"{value:.4g}"
-        rows.append((label, text, unit))
+        text = format_metric(key, metrics.get(key))
+        rows.append((label, text, "" if text in ("n/a", "unlimited") else unit))
     width = max(len(r[0]) for r in rows)
     lines = [title] if title else []
     lines += [f"{label:<{width}}  {text:>12} {unit}".rstrip() for label, text, unit in rows]
     for name, share in metrics.get("coverage_gaps", {}).items():
-        lines.append(f"note: {share:.0%} of the range of {name} is not covered by the spectrum")
+        lines.append(f"note: {share:.1%} of the weighting range of {name} is not covered")
     return "\n".join(lines)
+
+
+def format_metric(key: str, value) -> str:
+    """Format one metric for display: 4 significant digits, 'unlimited' or 'n/a' for None."""
+    if value is None:
+        return "unlimited" if key.endswith("limit_s") else "n/a"
+    if isinstance(value, str):
+        return value
+    return f"{value:.4g}"

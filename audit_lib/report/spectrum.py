@@ -81,3 +81,27 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
     ax.legend(handles[0] + extra[0], handles[1] + extra[1], fontsize=7, loc="upper right",
               framealpha=0.9)
     return fig
+
+
+def metrics_table(metrics: dict):
+    """Return :func:`audit_lib.metrics.spectrum_metrics` as a display table.
+
+    Parameters
+    ----------
+    metrics : dict
+        Output of ``spectrum_metrics``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``quantity``, ``value``, ``unit``; values formatted to 4 significant digits.
+    """
+    import pandas as pd
+
+    from audit_lib.metrics import METRIC_LABELS, format_metric
+
+    rows = [
+        {"quantity": label, "value": format_metric(key, metrics.get(key)), "unit": unit}
+        for key, (label, unit) in METRIC_LABELS.items()
+    ]
+    return pd.DataFrame(rows)
