@@ -293,7 +293,7 @@ def forecast_crossing(fit: DecayFit, threshold: float, *, installed_on, daily_ho
         nan = math.nan
         return Forecast(threshold, nan, nan, nan, pd.NaT, pd.NaT, pd.NaT)
     mf: ModelFit = fit.fits[model or fit.best]
-    best = mf.hours_to_reach(threshold)
+    best = float(mf.hours_to_reach(threshold))
     cov = mf.covariance
     if np.all(np.isfinite(cov)):
         rng = np.random.default_rng(seed)

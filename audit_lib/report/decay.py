@@ -1,0 +1,93 @@
+"""Lamp decay figure: readings, fitted models, target and forecast replacement date."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from audit_lib.report.style import PALETTE, new_figure
+
+#: Longest stretch drawn past the last reading when a forecast lies far ahead [days].
+MAX_FUTURE_DAYS = 3 * 365
+
+
+def _dates(installed_on, daily_hours: float, hours) -> pd.DatetimeIndex:
+    days = np.asarray(hours, dtype=float) / float(daily_hours)
+    return pd.Timestamp(installed_on) + pd.to_timedelta(days, unit="D")
+
+
+def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
+               threshold: float | None = None, forecast=None, today=None, ax=None,
+               title: str = "", unit_label: str = "UV Index [-]"):
+    """Plot one lamp's readings against date with both fitted decay models.
+
+    Parameters
+    ----------
+    points : pandas.DataFrame
+        Columns ``hours`` [h] and ``value`` (e.g. from
+        :func:`audit_lib.decay.select_decay_points`).
+    fit : audit_lib.decay.DecayFit
+        The fit of those points; the better model is drawn solid, the other dashed.
+    installed_on : date-like
+        Install day of the lamp (lamp hours 0).
+    daily_hours : float
+        Hours on per day, to turn lamp hours into dates [h].
+    threshold : float, optional
+        Lowest acceptable value (lower end of the zone's range), drawn as a line [unit].
+    forecast : audit_lib.decay.Forecast, optional
+        Forecast date and 68 % band, drawn as a line and a shaded span.
+    today : date-like, optional
+        Marks the day of the audit.
+    ax : matplotlib.axes.Axes, optional
+        Axes to draw into; a new figure is made if None.
+    title : str
+        Figure title (enclosure and lamp).
+    unit_label : str
+        Label of the value axis.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    if ax is None:
+        fig, ax = new_figure(7.5, 3.8)
+    else:
+        fig = ax.figure
+    hours = points["hours"].to_numpy(float)
+    values = points["value"].to_numpy(float)
+    ax.plot(_dates(installed_on, daily_hours, hours), values, "o", color=PALETTE["black"],
+            label="readings", zorder=3)
+    end_h = hours.max() if hours.size else 0.0
+    if forecast is not None and math.isfinite(forecast.hours):
+        end_h = max(end_h, forecast.hours_high if math.isfinite(forecast.hours_high)
+                    else forecast.hours)
+    end_h = min(end_h * 1.1 + daily_hours * 30, (hours.max() if hours.size else 0.0)
+                + MAX_FUTURE_DAYS * daily_hours)
+    grid = np.linspace(0.0, end_h, 300)
+    styles = {"exponential": PALETTE["blue"], "linear": PALETTE["bluish green"]}
+    for name, model in fit.fits.items():
+        best = name == fit.best
+        ax.plot(_dates(installed_on, daily_hours, grid), model.predict(grid),
+                color=styles[name], ls="-" if best else "--", lw=1.8 if best else 1.0,
+                label=f"{name} fit" + (" (better)" if best else ""))
+    if threshold is not None:
+        ax.axhline(threshold, color=PALETTE["vermillion"], lw=1.2, ls=":",
+                   label=f"target minimum {threshold:g}")
+    if forecast is not None and pd.notna(forecast.date):
+        ax.axvline(forecast.date, color=PALETTE["vermillion"], lw=1.2,
+                   label=f"below target {forecast.date.date().isoformat()}")
+        if pd.notna(forecast.date_early) and pd.notna(forecast.date_late):
+            ax.axvspan(forecast.date_early, forecast.date_late, color=PALETTE["vermillion"],
+                       alpha=0.12, lw=0, label="68 % band")
+    if today is not None:
+        ax.axvline(pd.Timestamp(today), color="#777777", lw=1.0, ls="-.", label="audit day")
+    ax.set_ylim(bottom=0)
+    ax.set_xlabel("date")
+    ax.set_ylabel(unit_label)
+    note = {"not enough data": " (not enough data to fit)", "no decay": " (no decay seen)"}
+    ax.set_title((title or "lamp output over time") + note.get(fit.state, ""), fontsize=10)
+    ax.legend(fontsize=7, loc="lower left", framealpha=0.9)
+    fig.autofmt_xdate()
+    return fig

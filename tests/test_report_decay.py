@@ -1,0 +1,54 @@
+"""Tests of the lamp decay figure (audit_lib.report.decay)."""
+
+import math
+
+import matplotlib
+import numpy as np
+import pandas as pd
+
+from audit_lib import decay
+from audit_lib.report.decay import plot_decay
+
+matplotlib.use("Agg")
+
+
+def test_figure_shows_readings_target_and_analytic_forecast(tmp_path):
+    """The drawn target line sits at the threshold and the forecast line at the analytic
+    crossing day of y = 4 exp(-k h) = 2.9, h = ln(4 / 2.9) / k (algebra), 12 h per day."""
+    import matplotlib.dates as mdates
+    import matplotlib.pyplot as plt
+
+    hours = np.array([0.0, 2000, 4000, 6000])
+    values = 4.0 * np.exp(-1e-4 * hours)
+    fit = decay.fit_decay(hours, values)
+    fc = decay.forecast_crossing(fit, 2.9, installed_on="2024-01-01", daily_hours=12)
+    points = pd.DataFrame({"hours": hours, "value": values})
+    fig = plot_decay(points, fit, installed_on="2024-01-01", daily_hours=12, threshold=2.9,
+                     forecast=fc, today="2025-01-01", title="desert-1 / basking-bar")
+    ax = fig.axes[0]
+    labels = [line.get_label() for line in ax.get_lines()]
+    assert labels[:3] == ["readings", "exponential fit (better)", "linear fit"]
+    target = ax.get_lines()[3]
+    assert set(target.get_ydata()) == {2.9}
+    crossing = pd.Timestamp("2024-01-01") + pd.Timedelta(
+        days=math.ceil(math.log(4 / 2.9) / 1e-4 / 12))
+    forecast_x = ax.get_lines()[4].get_xdata()[0]
+    if not isinstance(forecast_x, pd.Timestamp):
+        forecast_x = mdates.num2date(forecast_x).replace(tzinfo=None)
+    assert abs((pd.Timestamp(forecast_x) - crossing).days) <= 1
+    fig.savefig(tmp_path / "decay.png")
+    assert (tmp_path / "decay.png").stat().st_size > 10_000
+    plt.close(fig)
+
+
+def test_figure_without_fit_says_so():
+    """Two readings cannot be fitted: the figure shows them and says "not enough data"
+    (same rule as audit_lib.decay.MIN_POINTS)."""
+    import matplotlib.pyplot as plt
+
+    points = pd.DataFrame({"hours": [0.0, 1000.0], "value": [3.0, 2.8]})
+    fit = decay.fit_decay(points["hours"], points["value"])
+    fig = plot_decay(points, fit, installed_on="2024-01-01", daily_hours=12)
+    assert "not enough data" in fig.axes[0].get_title()
+    assert [line.get_label() for line in fig.axes[0].get_lines()] == ["readings"]
+    plt.close(fig)
