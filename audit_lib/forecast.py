@@ -127,14 +127,11 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
 
 
 def zone_of_enclosure(site, enclosure) -> int | None:
-    """Highest Ferguson zone among an enclosure's species (site table, then library table)."""
-    from importlib import resources
+    """Highest Ferguson zone among an enclosure's species (site table over library table)."""
+    from audit_lib.targets import species_targets
 
-    table = pd.read_csv(resources.files("audit_lib.data").joinpath("species_demo.csv"),
-                        comment="#")
-    zones = dict(zip(table["id"].astype(str), table["zone"].astype(int), strict=True))
-    zones.update({s.id: s.zone for s in site.records.species})
-    found = [zones[s] for s in enclosure.species if s in zones]
+    species = species_targets(site.records.species)
+    found = [species[s].zone for s in enclosure.species if s in species]
     return max(found) if found else None
 
 
@@ -142,7 +139,7 @@ def basking_uvi_targets(site) -> dict[str, float]:
     """Lowest acceptable basking UV Index per enclosure.
 
     That is the lower end of the zone's maximum-UVI range (Ferguson et al. 2010, Zoo
-    Biology 29:317; values in ``audit_lib/data/ferguson_zones.csv``, see their status
+    Biology 29:317; :func:`audit_lib.targets.read_zone_table`, see the status of its values
     there), for the highest zone among the enclosure's species.
 
     Returns
@@ -150,15 +147,14 @@ def basking_uvi_targets(site) -> dict[str, float]:
     dict
         Enclosure id -> UV Index [-]; enclosures with no known species zone are left out.
     """
-    from importlib import resources
+    from audit_lib.targets import read_zone_table
 
-    zones = pd.read_csv(resources.files("audit_lib.data").joinpath("ferguson_zones.csv"),
-                        comment="#").set_index("zone")
+    zones = read_zone_table()
     targets = {}
     for enclosure in site.records.enclosures:
         zone = zone_of_enclosure(site, enclosure)
         if zone is not None:
-            targets[enclosure.id] = float(zones.loc[zone, "max_uvi_low"])
+            targets[enclosure.id] = zones[zone].max_uvi_low
     return targets
 
 
