@@ -405,7 +405,8 @@ def spectrum_metrics(spectrum) -> dict:
         The keys of :func:`weighted_quantities` plus ``uvi_category``, ``keeper_limit_s``
         [s] (None when unlimited), ``uva_eye_limit_s`` [s] (None when unlimited),
         ``risk_group`` (indicative), ``cct_k`` [K], ``short_uvb_fraction`` [-],
-        ``vitd_to_erythemal_ratio`` [-], ``sun_vitd_to_erythemal_ratio`` [-] (ASTM G173),
+        ``vitd_to_erythemal_ratio`` [-], ``sun_vitd_to_erythemal_ratio`` and
+        ``sun_short_uvb_fraction`` [-] (ASTM G173),
         ``peak_nm`` [nm], ``fwhm_nm`` [nm], ``asymmetry`` [-], ``coverage_gaps``.
         Values that cannot be computed (no UVB, visible not covered) are None.
 
@@ -443,6 +444,7 @@ def spectrum_metrics(spectrum) -> dict:
         vitd_to_erythemal_ratio=finite(q["vitamin_d_w_m2"] / q["erythemal_w_m2"])
         if q["erythemal_w_m2"] > 0 else None,
         sun_vitd_to_erythemal_ratio=sun_reference()["vitd_to_erythemal_ratio"],
+        sun_short_uvb_fraction=sun_reference()["short_uvb_fraction"],
         peak_nm=finite(peak),
         fwhm_nm=finite(fwhm),
         asymmetry=finite(asym),
@@ -470,6 +472,7 @@ METRIC_LABELS = {
     "illuminance_lux": ("Illuminance", "lx"),
     "cct_k": ("Correlated colour temperature", "K"),
     "short_uvb_fraction": ("Share of UVB below 290 nm", ""),
+    "sun_short_uvb_fraction": ("same share for sunlight (ASTM G173)", ""),
     "vitd_to_erythemal_ratio": ("Vitamin D / erythemal ratio", ""),
     "sun_vitd_to_erythemal_ratio": ("same ratio for sunlight (ASTM G173)", ""),
     "peak_nm": ("Main UV peak", "nm"),

@@ -319,7 +319,7 @@ def read_spectrum(path, unit: str | None = None, *, name: str | None = None) -> 
                 hint="check the dark reference; only small negative noise near zero is accepted",
             )
         warnings.warn(
-            f"{path}: {int(negative.sum())} small negative values (dark-subtraction noise) "
+            f"{path.name}: {int(negative.sum())} small negative values (dark-subtraction noise) "
             "clipped to zero",
             SpectrumWarning,
             stacklevel=2,

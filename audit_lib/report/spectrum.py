@@ -93,8 +93,9 @@ def metrics_table(metrics: dict):
 
     Returns
     -------
-    pandas.DataFrame
-        Columns ``quantity``, ``value``, ``unit``; values formatted to 4 significant digits.
+    pandas.io.formats.style.Styler
+        Columns ``quantity``, ``value``, ``unit``; values formatted to 4 significant digits;
+        the frame itself is ``.data``.
     """
     import pandas as pd
 
@@ -104,4 +105,7 @@ def metrics_table(metrics: dict):
         {"quantity": label, "value": format_metric(key, metrics.get(key)), "unit": unit}
         for key, (label, unit) in METRIC_LABELS.items()
     ]
-    return pd.DataFrame(rows)
+    table = pd.DataFrame(rows)
+    return table.style.hide(axis="index").set_properties(
+        subset=["quantity"], **{"text-align": "left"}
+    )
