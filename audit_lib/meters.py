@@ -234,7 +234,8 @@ def correct_readings(readings: pd.DataFrame, factors: dict, *, quantity: str = "
         Readings (contract columns ``meter``, ``lamp``, ``quantity``, ``value_si``).
     factors : dict
         Correction factor F* [-] (or :class:`MismatchCorrection`) keyed by
-        ``(meter, lamp)`` or by ``meter`` alone.
+        ``(meter, enclosure, lamp)``, ``(meter, lamp)`` or ``meter`` alone (tried in
+        that order).
     quantity : str
         Quantity the factors apply to (``"uvi"`` for UV Index meters).
 
@@ -248,16 +249,18 @@ def correct_readings(readings: pd.DataFrame, factors: dict, *, quantity: str = "
     out = readings.copy()
     out["value_si_raw"] = out["value_si"].astype(float)
 
-    def lookup(meter, lamp) -> float:
-        for key in ((meter, lamp), meter):
+    def lookup(meter, enclosure, lamp) -> float:
+        for key in ((meter, enclosure, lamp), (meter, lamp), meter):
             if key in factors:
                 f = factors[key]
                 return float(f.correction_factor if isinstance(f, MismatchCorrection) else f)
         return np.nan
 
+    enclosures = out["enclosure"] if "enclosure" in out.columns else [""] * len(out)
     out["correction_factor"] = [
-        lookup(m, lp) if q == quantity else np.nan
-        for m, lp, q in zip(out["meter"], out["lamp"], out["quantity"], strict=True)
+        lookup(m, e, lp) if q == quantity else np.nan
+        for m, e, lp, q in zip(out["meter"], enclosures, out["lamp"], out["quantity"],
+                               strict=True)
     ]
     out["value_si_corrected"] = out["value_si_raw"] * out["correction_factor"]
     return out
