@@ -446,7 +446,7 @@ def daily_profile(schedule, date: dt.date | None = None, step_s: float = 60.0) -
     n = DAY_S / float(step_s)
     if step_s <= 0 or abs(n - round(n)) > 1e-9:
         raise InputError(
-            f"step {step_s!r} s does not divide the day into whole steps",
+            f"step {step_s:g} s does not divide the day into whole steps",
             field="step_s",
             hint="use 60, 30, 10 or 1",
         )
