@@ -356,39 +356,96 @@ def sun_reference() -> dict[str, float]:
     return values
 
 
-def correlated_colour_temperature(wavelength_nm, irradiance_w_m2_nm) -> float:
-    """Correlated colour temperature [K] with colour-science (CIE 1931 2°, Ohno 2013).
+@functools.lru_cache(maxsize=1)
+def _cie1931_cmfs():
+    import colour
+
+    cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
+    return np.asarray(cmfs.wavelengths, float), np.asarray(cmfs.values, float)
+
+
+@functools.lru_cache(maxsize=16)
+def _xyz_weights(grid_bytes: bytes) -> np.ndarray:
+    grid = np.frombuffer(grid_bytes, dtype=float)
+    cmf_wl, cmf = _cie1931_cmfs()
+    columns = []
+    for i in range(3):
+        def bar(wl, i=i):
+            return np.interp(wl, cmf_wl, cmf[:, i], left=0.0, right=0.0)
+
+        columns.append(integration_weights(grid, cmf_wl[0], cmf_wl[-1], bar))
+    return np.column_stack(columns)
+
+
+def correlated_colour_temperature(wavelength_nm, irradiance_w_m2_nm):
+    """Correlated colour temperature [K] of one or many spectra.
+
+    Tristimulus values with the CIE 1931 2° observer (colour-science's copy, integrated
+    with the same rule as every other quantity), chromaticity in the CIE 1960 UCS, CCT by
+    Robertson's (1968) method as implemented in colour-science.
 
     Parameters
     ----------
-    wavelength_nm : array_like
+    wavelength_nm : array_like, shape (n,)
         Wavelengths [nm], covering the visible.
-    irradiance_w_m2_nm : array_like
+    irradiance_w_m2_nm : array_like, shape (..., n)
         Spectral irradiance [W m-2 nm-1].
 
     Returns
     -------
-    float
+    float or numpy.ndarray
         CCT [K]; NaN for a spectrum with no visible light, or whose chromaticity lies
         more than 0.05 (|Duv|) from the Planckian locus, where CCT has no meaning
-        (CIE 015:2018 §9.5; the 0.05 bound is common practice).
+        (CIE 015:2018; the 0.05 bound is common practice).
     """
     import colour
 
-    sd = colour.SpectralDistribution(
-        np.asarray(irradiance_w_m2_nm, float), domain=np.asarray(wavelength_nm, float)
-    )
-    cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"]
+    grid = np.ascontiguousarray(wavelength_nm, dtype=float)
+    xyz = np.asarray(irradiance_w_m2_nm, float) @ _xyz_weights(grid.tobytes())
+    denominator = xyz[..., 0] + 15 * xyz[..., 1] + 3 * xyz[..., 2]
+    ok = (xyz[..., 1] > 0) & (denominator > 0)
+    safe = np.where(ok, denominator, 1.0)
+    uv = np.stack([4 * xyz[..., 0] / safe, 6 * xyz[..., 1] / safe], axis=-1)
+    uv = np.where(ok[..., None], uv, [[0.2, 0.3]][0])
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        xyz = colour.sd_to_XYZ(sd, cmfs=cmfs, method="Integration")
-        if not np.all(np.isfinite(xyz)) or xyz[1] <= 0:
-            return float("nan")
-        uv = colour.xy_to_UCS_uv(colour.XYZ_to_xy(xyz))
-        cct, duv = colour.temperature.uv_to_CCT(uv, method="Ohno 2013")
-    if abs(duv) > MAX_DUV_FOR_CCT:
-        return float("nan")
-    return float(cct)
+        cct_duv = np.asarray(colour.temperature.uv_to_CCT(uv, method="Robertson 1968"))
+    cct = np.where(ok & (np.abs(cct_duv[..., 1]) <= MAX_DUV_FOR_CCT), cct_duv[..., 0], np.nan)
+    return float(cct) if cct.ndim == 0 else cct
+
+
+def batch_metrics(wavelength_nm, irradiance_w_m2_nm, *, with_cct: bool = True):
+    """Every numeric metric of many spectra at once (vectorised).
+
+    Parameters
+    ----------
+    wavelength_nm : array_like, shape (n,)
+        Wavelengths [nm].
+    irradiance_w_m2_nm : array_like, shape (..., n)
+        Spectral irradiance [W m-2 nm-1].
+    with_cct : bool
+        Compute the CCT (needs colour-science).
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        The :func:`weighted_quantities` plus ``keeper_limit_s`` [s], ``uva_eye_limit_s``
+        [s], ``short_uvb_fraction`` [-], ``vitd_to_erythemal_ratio`` [-], ``peak_nm``
+        [nm], ``fwhm_nm`` [nm], ``asymmetry`` [-] and ``cct_k`` [K] (NaN where undefined).
+    """
+    e = np.asarray(irradiance_w_m2_nm, dtype=float)
+    q = weighted_quantities(wavelength_nm, e)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        q["short_uvb_fraction"] = np.where(
+            q["uvb_w_m2"] > 0, q["short_uvb_w_m2"] / q["uvb_w_m2"], np.nan)
+        q["vitd_to_erythemal_ratio"] = np.where(
+            q["erythemal_w_m2"] > 0, q["vitamin_d_w_m2"] / q["erythemal_w_m2"], np.nan)
+    q["keeper_limit_s"] = keeper_limit_s(q["actinic_w_m2"])
+    q["uva_eye_limit_s"] = uva_eye_limit_s(q["uva_w_m2"])
+    q["peak_nm"], q["fwhm_nm"], q["asymmetry"] = peak_shape(wavelength_nm, e)
+    if with_cct:
+        q["cct_k"] = np.asarray(correlated_colour_temperature(wavelength_nm, e))
+    return q
 
 
 def spectrum_metrics(spectrum) -> dict:
@@ -402,13 +459,10 @@ def spectrum_metrics(spectrum) -> dict:
     Returns
     -------
     dict
-        The keys of :func:`weighted_quantities` plus ``uvi_category``, ``keeper_limit_s``
-        [s] (None when unlimited), ``uva_eye_limit_s`` [s] (None when unlimited),
-        ``risk_group`` (indicative), ``cct_k`` [K], ``short_uvb_fraction`` [-],
-        ``vitd_to_erythemal_ratio`` [-], ``sun_vitd_to_erythemal_ratio`` and
-        ``sun_short_uvb_fraction`` [-] (ASTM G173),
-        ``peak_nm`` [nm], ``fwhm_nm`` [nm], ``asymmetry`` [-], ``coverage_gaps``.
-        Values that cannot be computed (no UVB, visible not covered) are None.
+        The keys of :func:`batch_metrics` plus ``uvi_category``, ``risk_group``
+        (indicative), ``sun_vitd_to_erythemal_ratio`` and ``sun_short_uvb_fraction`` [-]
+        (ASTM G173) and ``coverage_gaps``. Values that cannot be computed (no UVB, visible
+        not covered, unlimited time) are None.
 
     Warns
     -----
@@ -416,7 +470,6 @@ def spectrum_metrics(spectrum) -> dict:
         When the spectrum misses part of a weighting range.
     """
     wl, e = spectrum.wavelength_nm, spectrum.irradiance_w_m2_nm
-    q = {k: float(v) for k, v in weighted_quantities(wl, e).items()}
     gaps = coverage_gaps(wl)
     for name, share in gaps.items():
         warnings.warn(
@@ -426,30 +479,19 @@ def spectrum_metrics(spectrum) -> dict:
             stacklevel=2,
         )
     covers_visible = wl[0] <= 400.0 and wl[-1] >= 700.0
-
-    def finite(x):
-        return None if x is None or not np.isfinite(x) else float(x)
-
-    peak, fwhm, asym = (float(x) for x in peak_shape(wl, e))
-    result = dict(q)
+    values = batch_metrics(wl, e, with_cct=covers_visible)
+    result = {k: (float(v) if np.isfinite(v) else None) for k, v in values.items()}
+    sun = sun_reference()
     result.update(
-        uvi_category=uvi_category(q["uvi"]),
-        keeper_limit_s=finite(float(keeper_limit_s(q["actinic_w_m2"]))),
-        uva_eye_limit_s=finite(float(uva_eye_limit_s(q["uva_w_m2"]))),
-        risk_group=risk_group(q["actinic_w_m2"], q["uva_w_m2"]),
-        illuminance_lux=q["illuminance_lux"] if covers_visible else None,
-        cct_k=finite(correlated_colour_temperature(wl, e)) if covers_visible else None,
-        short_uvb_fraction=finite(q["short_uvb_w_m2"] / q["uvb_w_m2"]) if q["uvb_w_m2"] > 0
-        else None,
-        vitd_to_erythemal_ratio=finite(q["vitamin_d_w_m2"] / q["erythemal_w_m2"])
-        if q["erythemal_w_m2"] > 0 else None,
-        sun_vitd_to_erythemal_ratio=sun_reference()["vitd_to_erythemal_ratio"],
-        sun_short_uvb_fraction=sun_reference()["short_uvb_fraction"],
-        peak_nm=finite(peak),
-        fwhm_nm=finite(fwhm),
-        asymmetry=finite(asym),
+        uvi_category=uvi_category(result["uvi"]),
+        risk_group=risk_group(result["actinic_w_m2"], result["uva_w_m2"]),
+        sun_vitd_to_erythemal_ratio=sun["vitd_to_erythemal_ratio"],
+        sun_short_uvb_fraction=sun["short_uvb_fraction"],
         coverage_gaps=gaps,
     )
+    if not covers_visible:
+        result["illuminance_lux"] = None
+        result["cct_k"] = None
     return result
 
 

@@ -178,3 +178,16 @@ def test_spectrum_metrics_keys_and_null_visible():
                 "sun_vitd_to_erythemal_ratio", "peak_nm", "fwhm_nm", "asymmetry"):
         assert key in result
     assert result["peak_nm"] == pytest.approx(308.0)
+
+
+def test_batch_metrics_equal_single_spectrum_metrics():
+    """The vectorised path and the one-spectrum path agree value by value (same method)."""
+    wl = np.arange(250.0, 801.0)
+    rng = np.random.default_rng(3)
+    many = (np.exp(-0.5 * ((wl - 305) / 6) ** 2) * rng.uniform(1e-3, 1e-2, (3, 1))
+            + np.exp(-0.5 * ((wl - 560) / 80) ** 2) * rng.uniform(0.05, 0.2, (3, 1)))
+    together = m.batch_metrics(wl, many)
+    for i in range(3):
+        single = m.spectrum_metrics(Spectrum(wl, many[i]))
+        for key in ("uvi", "vitamin_d_w_m2", "cct_k", "fwhm_nm", "keeper_limit_s"):
+            assert single[key] == pytest.approx(float(together[key][i]), rel=1e-12)
