@@ -1,0 +1,556 @@
+"""The orchestrator: one enclosure of a loaded site in, one :class:`EnclosureAudit` out.
+
+:func:`audit_enclosure` chains the stages of the design's data flow by calling the part
+that owns each one: the scene from the site records (:mod:`audit_lib.assemble`), maps and
+point values (:mod:`audit_lib.scene`), daily and monthly doses (:mod:`audit_lib.dose`,
+:mod:`audit_lib.photoperiod`), the sun's clear-sky curve (:mod:`audit_lib.sunlight`),
+checks, verdicts and actions (:mod:`audit_lib.targets`, :mod:`audit_lib.verdicts`),
+failure scenarios (:mod:`audit_lib.failures`), lamp decay and replacement forecasts
+(:mod:`audit_lib.decay`) and spectrum metrics (:mod:`audit_lib.metrics`). It computes
+nothing of its own beyond choosing which figure feeds which check:
+
+* The model is calibrated to the audit's own UV Index readings when there are any: every map
+  quantity is scaled by the median ratio measured / modelled at the named positions (all
+  quantities are linear in lamp output, so one factor per enclosure keeps their ratios). The
+  factor is reported; without readings the model is used as given (lamps as new).
+* A reading named after a surface (not a named position) is compared with the model at
+  that surface's brightest cell: keepers measure the hottest spot (common practice).
+* Basking maximum: highest UV Index over the basking surfaces (the floor if there are none).
+  Refuge: floor share below the refuge threshold. Animal mean: the time budget's
+  share-weighted mean UV Index while active, each place represented by its surface mean
+  (or its point for named positions).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import warnings
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+import pandas as pd
+
+from audit_lib import __version__
+from audit_lib.errors import AuditWarning, InputError
+
+#: Grid spacing of the maps unless asked otherwise [m].
+DEFAULT_SPACING_M = 0.02
+_PLACE_SHAPE = (6, 6)
+
+
+@dataclass
+class EnclosureAudit:
+    """Everything one enclosure's report shows (see :func:`audit_enclosure`).
+
+    Attributes
+    ----------
+    site_name, enclosure_id, enclosure_name : str
+        What was audited.
+    audit_date : datetime.date
+        The audit day (readings of that day calibrate the model).
+    auditor, organisation, client : str
+        From the site file.
+    logo_path : str or None
+        Absolute path of the site's logo.
+    species : list of SpeciesTarget
+        The enclosure's species with their zones.
+    zone : Zone or None
+        Target ranges of the highest zone among the species.
+    scene : audit_lib.scene.Enclosure
+        The modelled enclosure.
+    calibration : float
+        Model scale factor from the readings [-] (1 when there were none).
+    maps : dict of str to SurfaceMap
+        Maps per surface (after calibration and with failed emitters out).
+    surface_stats : pandas.DataFrame
+        :func:`audit_lib.scene.statistics_table` of the maps.
+    points : pandas.DataFrame
+        Modelled values at the named positions with the audit's readings beside them.
+    daily : pandas.DataFrame
+        UV Index through the day at the basking maximum (``enclosure_uvi``) and the sun's
+        clear-sky UV Index at the site (``sun_uvi``), index ``time_h``.
+    basking_dose, animal_dose : DailyDose or None
+        Daily doses at the basking maximum and for the animal's time budget.
+    monthly : pandas.DataFrame
+        Month-by-month figures at the basking maximum (:func:`audit_lib.dose.monthly_table`).
+    natural : dict
+        The sun's reference day: latitude, peak UV Index, daily SED.
+    verdicts : list of Verdict
+        One per species.
+    verdict, reason : str
+        Overall state and its reason (the worst of the species' verdicts).
+    failures : pandas.DataFrame
+        LED emitter failure scenarios (empty when there are no LED arrays).
+    lamps : pandas.DataFrame
+        Lamp ages, decay fits and replacement forecasts.
+    spectra : dict of str to dict
+        Lamp model id to :func:`audit_lib.metrics.spectrum_metrics`.
+    lamp_spectra : dict of str to Spectrum
+        Lamp model id to its spectrum (shape; absolute where the model gives it).
+    notes : list of str
+        Caveats the report must show.
+    provenance : dict
+        What the figures rest on (files, versions, settings).
+    """
+
+    site_name: str
+    enclosure_id: str
+    enclosure_name: str
+    audit_date: dt.date
+    auditor: str = ""
+    organisation: str = ""
+    client: str = ""
+    logo_path: str | None = None
+    species: list = field(default_factory=list)
+    zone: object = None
+    scene: object = None
+    calibration: float = 1.0
+    maps: dict = field(default_factory=dict)
+    surface_stats: pd.DataFrame | None = None
+    points: pd.DataFrame | None = None
+    daily: pd.DataFrame | None = None
+    basking_dose: object = None
+    animal_dose: object = None
+    monthly: pd.DataFrame | None = None
+    natural: dict = field(default_factory=dict)
+    verdicts: list = field(default_factory=list)
+    verdict: str = ""
+    reason: str = ""
+    failures: pd.DataFrame | None = None
+    lamps: pd.DataFrame | None = None
+    spectra: dict = field(default_factory=dict)
+    lamp_spectra: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
+    provenance: dict = field(default_factory=dict)
+
+    @property
+    def checks(self) -> list:
+        """Every check of every species' verdict (species named in the check's name)."""
+        many = len(self.verdicts) > 1
+        out = []
+        for v in self.verdicts:
+            for c in v.checks:
+                out.append(replace(c, name=f"{c.name} ({v.species})") if many else c)
+        return out
+
+    @property
+    def actions(self) -> list:
+        """Recommended actions of every verdict, without repeats."""
+        seen, out = set(), []
+        for v in self.verdicts:
+            for a in v.actions:
+                if a.text not in seen:
+                    seen.add(a.text)
+                    out.append(a)
+        return out
+
+
+def choose_audit_date(site, audit_date=None) -> dt.date:
+    """The audit day: the one given, else the site's latest audit date, else its latest reading.
+
+    Parameters
+    ----------
+    site : audit_lib.site.Site
+        A loaded site.
+    audit_date : str or datetime.date, optional
+        ISO date or date.
+    """
+    if audit_date:
+        try:
+            return audit_date if isinstance(audit_date, dt.date) else \
+                dt.date.fromisoformat(str(audit_date))
+        except ValueError:
+            raise InputError(f"audit date {audit_date!r} is not a date", field="audit_date",
+                             hint="write it as YYYY-MM-DD") from None
+    dates = list(site.records.site.audit_dates)
+    if dates:
+        return max(dates)
+    if len(site.readings):
+        return pd.Timestamp(site.readings["date"].max()).date()
+    return dt.date.today()
+
+
+def _only(scene, lamp):
+    return replace(scene, lamps=(lamp,))
+
+
+def _failed_of(failed, lamp_id):
+    return tuple(f for f in failed if f.startswith(f"{lamp_id}/"))
+
+
+def _per_lamp(scene, points, failed, quantities=("uvi", "vitamin_d_w_m2")):
+    """Per lamp id, the quantities at points (full output): {q: {lamp: (n,) array}}."""
+    from audit_lib.scene import evaluate_points
+
+    out = {q: {} for q in quantities}
+    for lamp in scene.lamps:
+        ev = evaluate_points(_only(scene, lamp), points, quantities,
+                             failed=_failed_of(failed, lamp.id))
+        for q in quantities:
+            out[q][lamp.id] = ev.values[q]
+    return out
+
+
+def _measured_uvi(site, enclosure_id, audit_date):
+    rows = site.readings_of(enclosure_id)
+    if rows.empty:
+        return pd.DataFrame(columns=["position", "measured_uvi"])
+    day = rows[(pd.to_datetime(rows["date"]).dt.date == audit_date) & (rows["quantity"] == "uvi")
+               & (rows["position"].astype(str) != "")]
+    return day.groupby("position", as_index=False)["value_si"].mean().rename(
+        columns={"value_si": "measured_uvi"})
+
+
+def _positions(record, maps, measured_at) -> pd.DataFrame:
+    """Named positions, plus surfaces measured by name (at their brightest cell)."""
+    rows = [{"position": p.id, "x_m": p.x_m, "y_m": p.y_m, "z_m": p.z_m}
+            for p in record.positions]
+    named = {r["position"] for r in rows}
+    for name in measured_at:
+        if name in named or name not in maps:
+            continue
+        m = maps[name]
+        iy, ix = np.unravel_index(np.argmax(m.values["uvi"]), m.values["uvi"].shape)
+        rows.append({"position": name, "x_m": float(m.x_m[ix]), "y_m": float(m.y_m[iy]),
+                     "z_m": m.surface.z_m})
+    return pd.DataFrame(rows, columns=["position", "x_m", "y_m", "z_m"])
+
+
+def _calibrate(points: pd.DataFrame) -> float:
+    ok = points.dropna(subset=["measured_uvi"])
+    ok = ok[(ok["uvi"] > 0) & (ok["measured_uvi"] >= 0)]
+    if ok.empty:
+        return 1.0
+    return float(np.median(ok["measured_uvi"] / ok["uvi"]))
+
+
+def _scale_maps(maps, factor):
+    if factor == 1.0:
+        return maps
+    return {name: replace(m, values={q: v * factor for q, v in m.values.items()})
+            for name, m in maps.items()}
+
+
+def _places(record, scene):
+    """Representative points of each place of the time budget: {name: (n, 3) points}."""
+    from audit_lib.scene import surface_grid
+
+    places = {}
+    for s in scene.all_surfaces:
+        places[s.name] = surface_grid(s, shape=_PLACE_SHAPE)[2]
+    for p in record.positions:
+        places[p.id] = np.array([[p.x_m, p.y_m, p.z_m]])
+    return places
+
+
+def _lamp_table(site, record, audit_date, threshold):
+    from audit_lib.decay import replacement_schedule
+    from audit_lib.forecast import schedule_daily_hours
+
+    installs = pd.DataFrame([{
+        "enclosure": record.id, "lamp": p.id, "installed_on": pd.Timestamp(p.installed),
+        "removed_on": pd.NaT, "lamp_model": p.model, "note": p.note,
+        "daily_hours": p.daily_hours if p.daily_hours is not None else
+        schedule_daily_hours(site.schedule(p.schedule))} for p in record.lamps])
+    if installs.empty:
+        return installs
+    readings = site.readings_of(record.id)
+    table = replacement_schedule(readings, installs, threshold, today=audit_date)
+    table.insert(4, "age_days", [(pd.Timestamp(audit_date) - t).days
+                                 for t in table["installed_on"]])
+    return table.reset_index(drop=True)
+
+
+def _spectra(site, record, scene):
+    """Spectrum metrics per lamp model (LED arrays: flux-weighted sum of emitter types)."""
+    from audit_lib.assemble import model_spectrum
+    from audit_lib.emitters import MODEL_WAVELENGTH_NM, spectral_flux
+    from audit_lib.lamps import LedArray
+    from audit_lib.metrics import spectrum_metrics
+    from audit_lib.spectra import Spectrum
+
+    spectra, metrics = {}, {}
+    built = {p.name: p.lamp for p in scene.lamps}
+    for place in record.lamps:
+        if place.model in spectra:
+            continue
+        model, lamp = site.lamp_model(place.model), built[place.id]
+        spectrum = model_spectrum(site, model)
+        if spectrum is None and isinstance(lamp, LedArray):
+            counts = {}
+            for e in lamp.emitters:
+                counts[e.type] = counts.get(e.type, 0) + 1
+            total = np.zeros_like(MODEL_WAVELENGTH_NM)
+            for t in lamp.emitter_types:
+                total += counts.get(t.name, 0) * spectral_flux(t)[1]
+            spectrum = Spectrum(MODEL_WAVELENGTH_NM, total, name=model.name,
+                                source="modelled emitters")
+        if spectrum is not None:
+            spectra[place.model] = spectrum
+            metrics[place.model] = spectrum_metrics(spectrum)
+    return spectra, metrics
+
+
+def _keeper_limit(scene, record, failed):
+    """Shortest keeper limit over lamps, at the working distance below each lamp [s]."""
+    from audit_lib.metrics import keeper_limit_s
+    from audit_lib.scene import evaluate_points
+
+    distance = record.keeper_working_distance_m
+    if not distance or not scene.lamps:
+        return None
+    limits = []
+    for lamp in scene.lamps:
+        point = np.array([[lamp.x_m, lamp.y_m, lamp.z_m - distance]])
+        ev = evaluate_points(_only(scene, lamp), point, ("actinic_w_m2",),
+                             failed=_failed_of(failed, lamp.id))
+        actinic = float(ev.values["actinic_w_m2"][0])
+        if math.isfinite(actinic):
+            limits.append(float(keeper_limit_s(actinic)))
+    return min(limits) if limits else None
+
+
+def _height_for_uvi(scene, lamp, point, failed, calibration):
+    """Callable: lamp height above the basking point giving a UV Index there [UVI -> m]."""
+    from scipy.optimize import brentq
+
+    from audit_lib.scene import evaluate_points
+
+    def uvi_at(height):
+        moved = replace(lamp, z_m=point[2] + height)
+        with warnings.catch_warnings():  # scanning heights leaves any measured range
+            warnings.simplefilter("ignore", AuditWarning)
+            ev = evaluate_points(_only(scene, moved), point[None, :], ("uvi",),
+                                 failed=_failed_of(failed, lamp.id))
+        return calibration * float(ev.values["uvi"][0])
+
+    def height_for(target):
+        lo, hi = 0.03, 3.0
+        if not uvi_at(lo) >= target >= uvi_at(hi):
+            return math.nan
+        return float(brentq(lambda h: uvi_at(h) - target, lo, hi, xtol=1e-3))
+
+    return height_for
+
+
+def _failure_table(scene, surface, failed, uvi_range, calibration, probability, seed=0):
+    """Deterministic and Monte Carlo failure scenarios on the basking surface."""
+    from audit_lib.failures import failure_scenarios, monte_carlo_failures
+    from audit_lib.lamps import LedArray
+
+    if not any(isinstance(p.lamp, LedArray) for p in scene.lamps):
+        return pd.DataFrame(), None
+    lo, hi = (v / calibration for v in uvi_range)
+    scenarios = failure_scenarios(scene, surface, out=failed, worst=1, uvi_range=(lo, hi),
+                                  shape=(12, 12))
+    scenarios += failure_scenarios(scene, surface, worst=2, uvi_range=(lo, hi),
+                                   shape=(12, 12))[1:]
+    rows = [{"scenario": s.name, "emitters_out": ", ".join(s.failed) or "none",
+             "max_uvi": calibration * s.statistics.maximum["uvi"],
+             "mean_uvi": calibration * s.statistics.mean["uvi"],
+             "share_in_range": s.statistics.share_in_uvi_range} for s in scenarios]
+    mc = monte_carlo_failures(scene, surface, (lo, hi), probability, n_trials=2000,
+                              seed=seed, shape=(12, 12))
+    return pd.DataFrame(rows), mc
+
+
+def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
+                    spacing_m: float = DEFAULT_SPACING_M,
+                    emitter_failure_probability: float = 0.05) -> EnclosureAudit:
+    """Audit one enclosure of a loaded site.
+
+    Parameters
+    ----------
+    site : audit_lib.site.Site
+        A loaded, validated site (:func:`audit_lib.site.load_site`).
+    enclosure_id : str
+        The enclosure's id.
+    audit_date : str or datetime.date, optional
+        Audit day (default :func:`choose_audit_date`).
+    spacing_m : float
+        Map grid spacing [m].
+    emitter_failure_probability : float
+        Probability that one LED emitter is out at the next audit, for the Monte Carlo
+        study; an assumption to set per audit, not a published figure [-].
+
+    Returns
+    -------
+    EnclosureAudit
+    """
+    from audit_lib import metrics, targets
+    from audit_lib.assemble import build_scene, failed_labels, lamp_schedule
+    from audit_lib.dose import TimeBudget, integrate_daily_dose, integrate_time_budget
+    from audit_lib.dose import monthly_table as dose_monthly_table
+    from audit_lib.photoperiod import daily_profiles
+    from audit_lib.scene import compute_maps, point_values, statistics_table
+    from audit_lib.sunlight import clear_sky_daily_dose_sed, clear_sky_uvi_day
+    from audit_lib.verdicts import ATTENTION, MEETS, assess_enclosure
+
+    record = site.enclosure(enclosure_id)
+    info = site.records.site
+    day = choose_audit_date(site, audit_date)
+    known = targets.species_targets(site.records.species)
+    species = [known[s] for s in record.species if s in known]
+    zones = targets.read_zone_table()
+    zone = zones[max(s.zone for s in species)] if species else None
+    notes = [f"Species {s!r} is in neither the site's nor the library's species table."
+             for s in record.species if s not in known]
+    max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
+
+    scene = build_scene(site, enclosure_id)
+    failed = failed_labels(site, enclosure_id)
+    raw_maps = compute_maps(scene, spacing_m=spacing_m, failed=failed)
+    measured = _measured_uvi(site, enclosure_id, day)
+    positions = _positions(record, raw_maps, measured["position"])
+    points = point_values(scene, positions) if len(positions) else positions
+    points = points.merge(measured, on="position", how="left") \
+        if len(points) else points.assign(measured_uvi=pd.Series(dtype=float))
+    calibration = _calibrate(points) if len(points) else 1.0
+    if len(points):
+        points["modelled_uvi"] = points["uvi"] * calibration
+    notes.append(f"Model scaled by {calibration:.2f} to match the UV Index readings of {day}."
+                 if calibration != 1.0 else
+                 "No UV Index readings at named positions on the audit day: the model shows "
+                 "the lamps at their rated output (as new).")
+    maps = _scale_maps(raw_maps, calibration)
+    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
+
+    basking = [s.name for s in scene.all_surfaces if s.kind == "basking"] or ["floor"]
+    peak_surface = max(basking, key=lambda n: float(maps[n].values["uvi"].max()))
+    peak_map = maps[peak_surface]
+    iy, ix = np.unravel_index(np.argmax(peak_map.values["uvi"]), peak_map.values["uvi"].shape)
+    peak_point = np.array([peak_map.x_m[ix], peak_map.y_m[iy], peak_map.surface.z_m])
+    basking_max = float(peak_map.values["uvi"].max())
+    refuge_share = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
+
+    schedules = {p.id: lamp_schedule(site, p) for p in record.lamps}
+    profiles = daily_profiles(schedules, day) if schedules else None
+    at_peak = _per_lamp(scene, peak_point[None, :], failed)
+    uvi_peak = {k: calibration * float(v[0]) for k, v in at_peak["uvi"].items()}
+    vitd_peak = {k: calibration * float(v[0]) for k, v in at_peak["vitamin_d_w_m2"].items()}
+    basking_dose = animal = monthly = None
+    light_hours = mean_uvi = None
+    if profiles is not None:
+        basking_dose = integrate_daily_dose(uvi_peak, profiles, vitamin_d_w_m2_full=vitd_peak,
+                                            uvi_range=max_range)
+        light_hours = float((profiles.to_numpy() > 0).any(axis=1).sum()
+                            * (profiles.index[1] - profiles.index[0]))
+        monthly = dose_monthly_table(uvi_peak, schedules, day.year,
+                                     vitamin_d_w_m2_full=vitd_peak, uvi_range=max_range,
+                                     reference_latitude_deg=info.latitude_deg)
+        if record.time_budget:
+            places = _places(record, scene)
+            unknown = [k for k in record.time_budget if k not in places]
+            if unknown:
+                notes.append(f"Time budget place(s) {unknown} are not surfaces or positions; "
+                             "the animal's mean UV Index was not computed.")
+            else:
+                by_place, vitd_place = {}, {}
+                for name in record.time_budget:
+                    per = _per_lamp(scene, places[name], failed)
+                    by_place[name] = {k: calibration * float(v.mean())
+                                      for k, v in per["uvi"].items()}
+                    vitd_place[name] = {k: calibration * float(v.mean())
+                                        for k, v in per["vitamin_d_w_m2"].items()}
+                budget = TimeBudget(shares=dict(record.time_budget))
+                mean_range = (zone.mean_uvi_low, zone.mean_uvi_high) if zone else None
+                animal, _ = integrate_time_budget(budget, by_place, profiles,
+                                                  vitamin_d_by_position=vitd_place,
+                                                  uvi_range=mean_range)
+                mean_uvi = float(animal.mean_uvi_exposed)
+
+    utc_offset = _utc_offset_h(info.time_zone, day)
+    sun = clear_sky_uvi_day(info.latitude_deg, info.longitude_deg, day,
+                            utc_offset_h=utc_offset, step_s=600.0)
+    daily = pd.DataFrame({"time_h": sun["time_h"].to_numpy(), "sun_uvi": sun["uvi"].to_numpy()})
+    if profiles is not None:
+        lamp_uvi = sum(profiles[k].to_numpy() * v for k, v in uvi_peak.items())
+        daily["enclosure_uvi"] = np.interp(daily["time_h"], profiles.index.to_numpy(),
+                                           lamp_uvi)
+    daily = daily.set_index("time_h")
+    natural = {"latitude_deg": info.latitude_deg, "date": day,
+               "peak_uvi": float(sun["uvi"].max()),
+               "daily_sed": float(clear_sky_daily_dose_sed(info.latitude_deg, day))}
+
+    lamp_spectra, spectra = _spectra(site, record, scene)
+    sun_ref = metrics.sun_reference()
+    short = [m["short_uvb_fraction"] for m in spectra.values()
+             if m.get("uvb_w_m2", 0) > 0 and math.isfinite(m.get("short_uvb_fraction", math.nan))]
+    keeper = _keeper_limit(scene, record, failed)
+    lamps = _lamp_table(site, record, day, zone.max_uvi_low if zone else math.nan)
+    replace_by = None
+    if lamps is not None and len(lamps) and lamps["replace_by"].notna().any():
+        replace_by = pd.Timestamp(lamps["replace_by"].dropna().min()).date()
+    main = max(scene.lamps, key=lambda p: uvi_peak.get(p.id, 0.0)) if scene.lamps else None
+    screens = [s.transmission for s in scene.screens if s.transmission is not None]
+    action_inputs = dict(
+        current_height_m=float(main.z_m - peak_point[2]) if main else None,
+        height_for_uvi=_height_for_uvi(scene, main, peak_point, failed, calibration)
+        if main else None,
+        screen_transmission=min(screens) if screens else None,
+        floor_area_m2=record.width_m * record.depth_m, replacement_date=replace_by,
+        audit_date=day, lamp=main.id if main else "")
+    verdicts = [assess_enclosure(
+        enclosure_id, s, zones[s.zone], basking_max_uvi=basking_max, mean_uvi=mean_uvi,
+        refuge_share=refuge_share, light_hours=light_hours,
+        short_uvb_fraction=max(short) if short else None,
+        sun_short_uvb_fraction=sun_ref["short_uvb_fraction"], keeper_limit_s=keeper,
+        working_distance_m=record.keeper_working_distance_m, **action_inputs)
+        for s in species]
+    states = [v.state for v in verdicts]
+    if ATTENTION in states:
+        verdict = ATTENTION
+    elif states and all(s == MEETS for s in states):
+        verdict = MEETS
+    else:
+        verdict = targets.NO_DATA
+    reason = " ".join(v.reason for v in verdicts) or "No species with a known zone is assigned."
+    for v in verdicts:
+        notes += [n for n in v.notes if n not in notes]
+
+    failures, monte_carlo = (pd.DataFrame(), None)
+    if max_range:
+        failures, monte_carlo = _failure_table(scene, peak_surface, failed, max_range,
+                                               calibration, emitter_failure_probability)
+    if monte_carlo is not None:
+        notes.append(
+            f"Emitter failures: with each emitter out with an assumed probability of "
+            f"{emitter_failure_probability:.0%}, {monte_carlo.probability_below:.0%} of 2000 "
+            f"random trials leave less than {monte_carlo.coverage_threshold:.0%} of "
+            f"{peak_surface!r} inside the maximum UV Index range.")
+
+    return EnclosureAudit(
+        site_name=site.name, enclosure_id=enclosure_id, enclosure_name=record.name,
+        audit_date=day, auditor=info.auditor, organisation=info.organisation,
+        client=info.client, logo_path=str(site.path_of(info.logo)) if info.logo else None,
+        species=species, zone=zone, scene=scene, calibration=calibration, maps=maps,
+        surface_stats=stats, points=points, daily=daily, basking_dose=basking_dose,
+        animal_dose=animal, monthly=monthly, natural=natural, verdicts=verdicts,
+        verdict=verdict, reason=reason, failures=failures, lamps=lamps, spectra=spectra,
+        lamp_spectra=lamp_spectra, notes=notes,
+        provenance=_provenance(site, enclosure_id, spacing_m, day))
+
+
+def _utc_offset_h(time_zone: str, day: dt.date) -> float:
+    from zoneinfo import ZoneInfo
+
+    try:
+        noon = dt.datetime.combine(day, dt.time(12), tzinfo=ZoneInfo(time_zone))
+    except (KeyError, ValueError):
+        raise InputError(f"unknown time zone {time_zone!r}", field="site.time_zone",
+                         hint="use an IANA name such as Europe/London") from None
+    return noon.utcoffset().total_seconds() / 3600.0
+
+
+def _provenance(site, enclosure_id, spacing_m, day) -> dict:
+    import hashlib
+
+    files = sorted({str(f) for f in site.readings_of(enclosure_id)["source_file"]}) \
+        if len(site.readings) else []
+    digest = hashlib.sha256((site.root / "site.toml").read_bytes()).hexdigest()[:12]
+    return {"library_version": __version__, "site_file": f"site.toml (sha256 {digest})",
+            "readings_files": ", ".join(files) or "none", "audit_date": day.isoformat(),
+            "map_spacing_m": spacing_m,
+            "targets": "Ferguson zones (data/ferguson_zones.csv), species table "
+                       "(data/species_demo.csv) with the site's own species"}
