@@ -9,6 +9,9 @@ The table contract (shared by ``site``, ``history`` and ``batch``) is :data:`COL
 
 from __future__ import annotations
 
+import csv
+import datetime as dt
+import io
 import math
 from os import PathLike
 from pathlib import Path
@@ -39,23 +42,39 @@ ALIASES = {
 UVI_UNITS = ("", "uvi", "index", "-")
 
 
-def _read_table(path: Path) -> tuple[pd.DataFrame, int]:
-    """Return the raw table as strings and the line number of its header row."""
+def _read_table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]], int]:
+    """Return the header, the data rows with their 1-based line numbers, and the header line."""
     suffix = path.suffix.lower()
     if suffix == ".xlsx":
-        frame = pd.read_excel(path, dtype=str, engine="openpyxl", keep_default_na=False)
-        return frame, 1
-    if suffix not in (".csv", ".txt", ".tsv"):
+        from openpyxl import load_workbook
+
+        book = load_workbook(path, read_only=True, data_only=True)
+        sheet = book.worksheets[0]
+        rows = [(i, ["" if v is None else _cell_text(v) for v in row])
+                for i, row in enumerate(sheet.iter_rows(values_only=True), start=1)]
+        book.close()
+    elif suffix in (".csv", ".txt", ".tsv"):
+        text = path.read_text(encoding="utf-8-sig")
+        delimiter = "\t" if suffix == ".tsv" else ","
+        rows = list(enumerate(csv.reader(io.StringIO(text), delimiter=delimiter), start=1))
+    else:
         raise InputError("readings must be .csv, .tsv or .xlsx", path=path,
                          hint="export the sheet as CSV or save it as .xlsx")
-    lines = path.read_text(encoding="utf-8-sig").splitlines()
-    skip = 0
-    while skip < len(lines) and (not lines[skip].strip() or lines[skip].lstrip().startswith("#")):
-        skip += 1
-    sep = "\t" if suffix == ".tsv" else ","
-    frame = pd.read_csv(path, sep=sep, dtype=str, keep_default_na=False, skiprows=skip,
-                        comment=None, encoding="utf-8-sig", skip_blank_lines=False)
-    return frame, skip + 1
+    rows = [(i, [c.strip() for c in r]) for i, r in rows
+            if any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
+    if not rows:
+        return [], [], 1
+    (header_line, header), data = rows[0], rows[1:]
+    return [h.lower() for h in header], data, header_line
+
+
+def _cell_text(value) -> str:
+    """Spreadsheet cell as text: dates as YYYY-MM-DD, numbers without a trailing .0."""
+    if isinstance(value, dt.datetime | dt.date):
+        return value.strftime("%Y-%m-%d")
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
 
 
 def _number(text: str, *, where: dict, column: str, problems: list) -> float:
@@ -133,11 +152,10 @@ def read_readings_with_problems(path: str | PathLike) -> tuple[pd.DataFrame, lis
         Rows in the :data:`COLUMNS` layout, and the problems (file, line, column, hint).
     """
     path = Path(path)
-    frame, header_line = _read_table(path)
-    frame.columns = [str(c).strip().lower() for c in frame.columns]
+    header, data, header_line = _read_table(path)
     problems: list[InputError] = []
-    missing = [c for c in REQUIRED if c not in frame.columns]
-    unknown = [c for c in frame.columns if c not in REQUIRED + OPTIONAL]
+    missing = [c for c in REQUIRED if c not in header]
+    unknown = [c for c in header if c not in REQUIRED + OPTIONAL]
     for column in missing:
         problems.append(InputError(f"missing column {column!r}", path=path, line=header_line,
                                    hint="required columns: " + ", ".join(REQUIRED)))
@@ -146,11 +164,14 @@ def read_readings_with_problems(path: str | PathLike) -> tuple[pd.DataFrame, lis
                                    hint="allowed columns: " + ", ".join(REQUIRED + OPTIONAL)))
     rows = []
     if not missing:
-        for i, raw in enumerate(frame.to_dict("records")):
-            if all(str(v).strip() == "" for v in raw.values()):
+        for line, cells in data:
+            if len(cells) != len(header):
+                problems.append(InputError(
+                    f"{len(cells)} fields where the header has {len(header)}", path=path,
+                    line=line, hint="quote notes that contain commas: \"like, this\""))
                 continue
-            line = header_line + 1 + i
-            row = _convert_row(raw, {"path": path, "line": line}, problems)
+            row = _convert_row(dict(zip(header, cells, strict=True)),
+                               {"path": path, "line": line}, problems)
             if row is not None:
                 rows.append({**row, "source_file": path.name, "source_line": line})
     return _as_frame(rows), problems

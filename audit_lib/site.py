@@ -16,7 +16,11 @@ from os import PathLike
 from pathlib import Path
 
 import pandas as pd
-import tomllib
+
+try:  # Python >= 3.11
+    import tomllib
+except ModuleNotFoundError:  # pragma: no cover - Python 3.10
+    import tomli as tomllib
 
 from audit_lib.errors import InputError, InputErrors
 from audit_lib.readings import read_readings, read_readings_with_problems, readings_files

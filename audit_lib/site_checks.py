@@ -46,10 +46,10 @@ def locate_keys(text: str) -> dict[str, int]:
             for i, part in enumerate(parts):
                 name = f"{path}.{part}" if path else part
                 last = i == len(parts) - 1
-                if name in counts and not (last and header.group(1) == "["):
-                    name = f"{name}[{counts[name] - 1}]"
                 if last and header.group(1) == "[[":
                     counts[name] = counts.get(name, 0) + 1
+                    name = f"{name}[{counts[name] - 1}]"
+                elif name in counts and not last:
                     name = f"{name}[{counts[name] - 1}]"
                 path = name
             table = path
@@ -80,6 +80,9 @@ def line_of(path_key: str, lines: dict[str, int]) -> int | None:
     while key:
         if key in lines:
             return lines[key]
+        for suffix in ("_w_m2", "_lux", "_m", "_s"):
+            if key.endswith(suffix) and key[: -len(suffix)] in lines:
+                return lines[key[: -len(suffix)]]
         cut = max(key.rfind("."), key.rfind("["))
         key = key[:cut] if cut > 0 else ""
     return None

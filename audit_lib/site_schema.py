@@ -199,13 +199,15 @@ class EmitterPlace(Record):
 
 
 class EmitterGrid(Record):
-    """A regular grid of one emitter type, centred on the fitting."""
+    """A regular grid of one emitter type, centred on (x_m, y_m) of the fitting."""
 
     emitter: Id
     rows: int = Field(ge=1)
     columns: int = Field(ge=1)
     pitch_x_m: Positive
     pitch_y_m: Positive = 0.01
+    x_m: float = 0.0
+    y_m: float = 0.0
 
 
 class LedArrayModel(Record):
@@ -332,6 +334,7 @@ class LampPlace(Record):
     tilt_deg: float = Field(default=0.0, ge=-90, le=90)
     rotation_deg: float = 0.0
     installed: dt.date
+    earlier_installs: list[dt.date] = []
     daily_hours: float | None = Field(default=None, gt=0, le=24)
     schedule: Id | None = None
     screens: list[Id] = []
@@ -342,6 +345,8 @@ class LampPlace(Record):
     def _timing(self):
         if (self.daily_hours is None) == (self.schedule is None):
             raise ValueError("give the lamp's daily_hours or a schedule id (one of them)")
+        if any(d >= self.installed for d in self.earlier_installs):
+            raise ValueError("earlier_installs must all be before installed")
         return self
 
 
