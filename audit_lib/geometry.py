@@ -99,6 +99,17 @@ def group_factors(
     pos, axes = group.positions_m, group.axes
     n_src = pos.shape[0]
     nx, ny, nz = (float(c) for c in np.asarray(normal, float) / np.linalg.norm(normal))
+    if _straight_down(group, (nx, ny, nz), pts) and all(sc.bounds_m is None for sc in screens):
+        gf = _straight_down_factors(group, pts)
+        zp = pts[0, 2]
+        for sc in screens:  # unbounded plane: crossing depends on heights only
+            crossing = (pos[:, 2] - sc.z_m) * (zp - sc.z_m) < 0
+            gf.screen_masks.append(
+                bool(crossing[0])
+                if np.all(crossing == crossing[0])
+                else np.broadcast_to(crossing[:, None], (n_src, n_pts))
+            )
+        return gf
     factor = np.empty((n_src, n_pts))
     factor_cos = np.empty(n_pts)
     keep_r = group.valid_range_m is not None
@@ -140,6 +151,52 @@ def group_factors(
         else:
             out_masks.append(mask)
     return GroupFactors(factor, factor_cos, distance, out_masks)
+
+
+def _straight_down(group: SourceGroup, normal, pts) -> bool:
+    """True when the fast path applies: facing up, axes straight down, cos^m, 1/r^2."""
+    return (
+        normal == (0.0, 0.0, 1.0)
+        and not isinstance(group.pattern, (str, AngularPattern))
+        and group.distance_exponent == 2.0
+        and group.front_factor == 1.0
+        and group.valid_range_m is None
+        and bool(np.all(group.axes == np.array([0.0, 0.0, -1.0])))
+        and pts.size > 0
+        and bool(np.all(pts[:, 2] == pts[0, 2]))
+    )
+
+
+def _straight_down_factors(group: SourceGroup, pts: np.ndarray) -> GroupFactors:
+    """Fast path: with the axis along -z and a level receiver, cos(theta) = cos(i) = h/r.
+
+    The factor w cos^m(theta) cos(i) / r^2 becomes w h^(m+1) r^-(m+3), one power per
+    element instead of a general pattern evaluation.
+    """
+    m = float(group.pattern)
+    n_src, n_pts = group.positions_m.shape[0], pts.shape[0]
+    h = group.positions_m[:, 2:3] - pts[0, 2]
+    lit = h > 0
+    scale = np.where(lit, np.asarray(group.weights, float)[:, None] * np.abs(h) ** (m + 1), 0.0)
+    factor = np.empty((n_src, n_pts))
+    factor_cos = np.empty(n_pts)
+    sx, sy = group.positions_m[:, 0:1], group.positions_m[:, 1:2]
+    h2 = h * h
+    for start in range(0, n_pts, _BLOCK):
+        sl = slice(start, min(start + _BLOCK, n_pts))
+        dx = pts[None, sl, 0] - sx
+        dy = pts[None, sl, 1] - sy
+        r2 = dx * dx
+        r2 += dy * dy
+        r2 += h2
+        block = factor[:, sl]
+        np.power(r2, -(m + 3.0) / 2.0, out=block)
+        block *= scale
+        np.sqrt(r2, out=r2)
+        np.divide(np.abs(h), r2, out=r2)
+        r2 *= block
+        factor_cos[sl] = r2.sum(axis=0)
+    return GroupFactors(factor, factor_cos, None, [])
 
 
 def _crosses(screen: ScreenPlane, sx, sy, sz, dx, dy, dz) -> np.ndarray:
