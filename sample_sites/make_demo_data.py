@@ -208,14 +208,37 @@ def make_park(rng) -> None:
                          "Distance": "at the basking mound"}, rng)
 
 
+def write_readings_xlsx(path: Path, rows: list[dict], title: str) -> None:
+    """Write readings as a spreadsheet: a title row above the header, dates as dates."""
+    from openpyxl import Workbook
+
+    columns = ["date", "enclosure", "lamp", "position", "distance_m", "quantity", "value",
+               "unit", "meter", "note"]
+    book = Workbook()
+    sheet = book.active
+    sheet.title = "readings"
+    sheet.append([f"# {title} (DEMO DATA)"])
+    sheet.append(columns)
+    for row in rows:
+        sheet.append([row.get(c, "") for c in columns])
+    book.save(path)
+
+
+def make_client(rng) -> None:
+    """Two audits of the consultant's client, one spreadsheet per audit."""
+    site = _load(CLIENT)
+    for day in site.records.site.audit_dates:
+        rows = audit_rows(site, day, rng, fail_from={}, uvb_meter=set())
+        rows = [{**r, "meter": "uvi-meter"} for r in rows if r["quantity"] == "uvi"]
+        write_readings_xlsx(CLIENT / "readings" / f"visit-{day.isoformat()}.xlsx", rows,
+                            f"Ashdown private collection, consultant's visit {day}")
+
+
 def main() -> None:
     """Write every demo file."""
     rng = np.random.default_rng(20260310)
     make_park(rng)
-    if (CLIENT / "site.toml").exists():
-        from make_client_data import make_client  # noqa: PLC0415 - sibling script
-
-        make_client(rng)
+    make_client(rng)
 
 
 if __name__ == "__main__":
