@@ -257,6 +257,39 @@ def integrate_daily_dose(
     )
 
 
+def uvi_series(uvi_full, profiles):
+    """UV Index through the day at one point.
+
+    Parameters
+    ----------
+    uvi_full : float or dict of str to float
+        UV Index at full output (single lamp, or lamp id to contribution) [-].
+    profiles : DailyProfile, dict of str to DailyProfile, or pandas.DataFrame
+        Lamp profiles.
+
+    Returns
+    -------
+    pandas.Series
+        UV Index [-] indexed by ``time_h`` (middle of each step, local clock hours).
+
+    Notes
+    -----
+    Superposition of lamp contributions (weighted irradiances are linear in output).
+    """
+    import pandas as pd
+
+    fractions, step_s = _profile_fractions(profiles)
+    pairs = _contributions(uvi_full, fractions, "uvi_full")
+    if any(v.ndim for v, _ in pairs):
+        raise InputError("uvi_series takes point values, not maps", field="uvi_full")
+    n = int(round(DAY_S / step_s))
+    uvi = np.zeros(n)
+    for value, frac in pairs:
+        uvi += float(value) * frac
+    time_h = (np.arange(n) + 0.5) * step_s / 3600.0
+    return pd.Series(uvi, index=pd.Index(time_h, name="time_h"), name="uvi")
+
+
 def active_steps(budget: TimeBudget, profiles) -> np.ndarray:
     """Boolean mask of the time steps in the budget's active day.
 
