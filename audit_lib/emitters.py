@@ -578,3 +578,27 @@ def fit_line_shape(
         residual_rms=rms,
         relative_residual=rms / float(p[3]) if p[3] > 0 else float("inf"),
     )
+
+
+def emitter_spectrum(emitter: EmitterType, distance_m: float = 1.0):
+    """Spectral irradiance of one emitter on its axis at ``distance_m`` (inverse-square law).
+
+    Parameters
+    ----------
+    emitter : EmitterType
+        The emitter.
+    distance_m : float, optional
+        Distance on the axis [m].
+
+    Returns
+    -------
+    Spectrum
+        [W m-2 nm-1] on :data:`MODEL_WAVELENGTH_NM`.
+    """
+    from audit_lib.spectra import Spectrum
+
+    if distance_m <= 0:
+        raise InputError(f"distance must be positive, got {distance_m!r}", field="distance_m")
+    wl, flux = spectral_flux(emitter)
+    values = flux / pattern_solid_angle(emitter_order(emitter)) / distance_m**2
+    return Spectrum(wl, values, name=emitter.name, source="emitter model")
