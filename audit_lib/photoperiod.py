@@ -80,6 +80,13 @@ def format_clock(seconds: float) -> str:
     return f"{minutes // 60:02d}:{minutes % 60:02d}"
 
 
+def _on_length(t_on: float, t_off: float) -> float:
+    """Seconds from on to off, wrapping past midnight; "00:00" to "24:00" is the whole day."""
+    if t_off - t_on == DAY_S:
+        return DAY_S
+    return (t_off - t_on) % DAY_S
+
+
 def _check_level(value, name):
     if not (0.0 <= float(value) <= 1.0):
         raise InputError(
@@ -135,7 +142,7 @@ class OnOffSchedule:
             )
         if self.ramp_up_min < 0 or self.ramp_down_min < 0:
             raise InputError("ramp lengths must not be negative", field="ramp_up_min")
-        length = (t_off - t_on) % DAY_S
+        length = _on_length(t_on, t_off)
         if (self.ramp_up_min + self.ramp_down_min) * 60.0 > length:
             raise InputError(
                 f"ramps of {self.ramp_up_min:g} + {self.ramp_down_min:g} min do not fit in the "
@@ -311,7 +318,7 @@ def _knots(schedule, date) -> tuple[np.ndarray, np.ndarray]:
         return _knots(schedule_for_date(schedule, date), date)
     if isinstance(schedule, OnOffSchedule):
         t_on = parse_clock(schedule.on)
-        t_off = t_on + (parse_clock(schedule.off) - t_on) % DAY_S
+        t_off = t_on + _on_length(t_on, parse_clock(schedule.off))
         if t_off == t_on:
             return np.array([0.0, 0.0]), np.array([0.0, 0.0])
         up = _ramp_knots(

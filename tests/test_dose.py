@@ -119,3 +119,17 @@ def test_monthly_table_follows_natural_day_and_sun():
         assert t.loc[month, "sun_clear_sky_sed"] == pytest.approx(
             clear_sky_daily_dose_sed(40.0, day))
     assert t.loc[6, "sed"] > t.loc[12, "sed"]
+
+
+def test_uvi_series_superposes_lamps():
+    """Superposition of lamp contributions (weighted irradiance is linear in output): at
+    12:00 both lamps are on, at 09:00 only the first."""
+    from audit_lib.dose import uvi_series
+
+    a = daily_profile(OnOffSchedule(on="08:00", off="20:00"))
+    b = daily_profile(OnOffSchedule(on="11:00", off="15:00"))
+    s = uvi_series({"a": 1.5, "b": 2.0}, {"a": a, "b": b})
+    assert s.index.name == "time_h" and len(s) == 1440
+    assert s.iloc[12 * 60] == pytest.approx(3.5) and s.iloc[9 * 60] == pytest.approx(1.5)
+    with pytest.raises(InputError, match="uvi_series takes point values"):
+        uvi_series(np.ones(3), a)

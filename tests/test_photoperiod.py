@@ -123,3 +123,10 @@ def test_bad_inputs_name_the_field():
     with pytest.raises(InputError, match="step_s: step 7 s does not divide the day"):
         daily_profile(OnOffSchedule(), step_s=7.0)
     assert parse_clock("24:00") == 86400.0
+
+
+def test_whole_day_and_zero_length():
+    """00:00 to 24:00 is the whole day (24 h); on == off gives no light (a timer that never
+    switches, common practice reading of such settings)."""
+    assert full_output_hours(daily_profile(OnOffSchedule(on="00:00", off="24:00"))) == 24.0
+    assert full_output_hours(daily_profile(OnOffSchedule(on="09:00", off="09:00"))) == 0.0
