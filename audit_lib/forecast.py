@@ -82,15 +82,15 @@ def sync_lamp_installs(site, db_path: str | PathLike) -> int:
     int
         Installs newly recorded [-].
     """
-    added = 0
+    rows = []
     for enclosure in site.records.enclosures:
         for lamp in enclosure.lamps:
             hours = lamp.daily_hours
             if hours is None:
                 hours = schedule_daily_hours(site.schedule(lamp.schedule))
-            added += history.record_lamp_install(db_path, enclosure.id, lamp.id, lamp.installed,
-                                                 hours, lamp_model=lamp.model)
-    return added
+            rows.append(dict(enclosure=enclosure.id, lamp=lamp.id, installed_on=lamp.installed,
+                             daily_hours=hours, lamp_model=lamp.model))
+    return history.record_lamp_installs(db_path, rows)
 
 
 def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, today=None):

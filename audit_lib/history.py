@@ -31,6 +31,7 @@ from dataclasses import dataclass
 from os import PathLike
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from audit_lib.errors import AuditError, InputError
@@ -422,17 +423,50 @@ def record_lamp_install(db_path: str | PathLike, enclosure: str, lamp: str, inst
     bool
         True if a new install was stored, False if it was known already.
     """
-    if not 0 <= float(daily_hours) <= 24:
-        raise InputError(f"daily hours must be between 0 and 24, got {daily_hours!r}",
-                         field="daily_hours")
+    return record_lamp_installs(db_path, [dict(enclosure=enclosure, lamp=lamp,
+                                               installed_on=installed_on,
+                                               daily_hours=daily_hours, lamp_model=lamp_model,
+                                               note=note)]) == 1
+
+
+def record_lamp_installs(db_path: str | PathLike, installs) -> int:
+    """Record many lamp installs in one transaction (see :func:`record_lamp_install`).
+
+    Parameters
+    ----------
+    db_path : str or PathLike
+        The site's history database.
+    installs : iterable of dict
+        Each with ``enclosure``, ``lamp``, ``installed_on``, ``daily_hours`` [h] and
+        optionally ``lamp_model``, ``note``.
+
+    Returns
+    -------
+    int
+        Installs newly stored [-]; all or none are stored.
+    """
+    rows = []
+    for item in installs:
+        hours = float(item["daily_hours"])
+        where = f"{item['enclosure']}.{item['lamp']}.daily_hours"
+        if not 0 <= hours <= 24:
+            raise InputError(f"daily hours must be between 0 and 24, got {hours:g}", field=where)
+        rows.append((item["enclosure"], item["lamp"], _iso_date(item["installed_on"]), hours,
+                     item.get("lamp_model", "") or "", item.get("note", "") or ""))
     conn = open_history(db_path)
     try:
-        cur = conn.execute(
-            "INSERT OR IGNORE INTO lamp_installs (enclosure, lamp, installed_on, daily_hours,"
-            " lamp_model, note) VALUES (?, ?, ?, ?, ?, ?)",
-            (enclosure, lamp, _iso_date(installed_on), float(daily_hours), lamp_model, note),
-        )
-        return cur.rowcount == 1
+        conn.execute("BEGIN IMMEDIATE")
+        try:
+            added = 0
+            for row in rows:
+                added += conn.execute(
+                    "INSERT OR IGNORE INTO lamp_installs (enclosure, lamp, installed_on,"
+                    " daily_hours, lamp_model, note) VALUES (?, ?, ?, ?, ?, ?)", row).rowcount
+            conn.execute("COMMIT")
+        except BaseException:
+            conn.execute("ROLLBACK")
+            raise
+        return added
     finally:
         conn.close()
 
@@ -549,11 +583,14 @@ def find_install(installs: pd.DataFrame, enclosure: str, lamp: str, date) -> pd.
 
     ``installs`` is a table from :func:`read_lamp_installs`; the result is one of its rows.
     """
-    date = pd.Timestamp(date)
-    sel = installs[(installs["enclosure"] == enclosure) & (installs["lamp"] == lamp)
-                   & (installs["installed_on"] <= date)
-                   & (installs["removed_on"].isna() | (installs["removed_on"] > date))]
-    return None if sel.empty else sel.iloc[-1]
+    date = pd.Timestamp(date).to_datetime64()
+    installed = installs["installed_on"].to_numpy("datetime64[ns]")
+    removed = installs["removed_on"].to_numpy("datetime64[ns]")
+    keep = ((installs["enclosure"].to_numpy(object) == enclosure)
+            & (installs["lamp"].to_numpy(object) == lamp)
+            & (installed <= date) & (np.isnat(removed) | (removed > date)))
+    rows = np.flatnonzero(keep)
+    return None if rows.size == 0 else installs.iloc[rows[-1]]
 
 
 def lamp_hours_at(db_path: str | PathLike, enclosure: str, lamp: str, date) -> float:
