@@ -13,6 +13,7 @@ import csv
 import datetime as dt
 import io
 import math
+import re
 from os import PathLike
 from pathlib import Path
 
@@ -40,6 +41,7 @@ ALIASES = {
     "illuminance": "illuminance_lux", "lux": "illuminance_lux",
 }
 UVI_UNITS = ("", "uvi", "index", "-")
+_ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}([ T]00:00(:00)?)?$")
 
 
 def _read_table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]], int]:
@@ -95,12 +97,13 @@ def _convert_row(raw: dict, where: dict, problems: list) -> dict | None:
     before = len(problems)
     row = {k: str(raw.get(k, "")).strip() for k in REQUIRED + OPTIONAL}
     try:
-        date = pd.Timestamp(row["date"]).normalize()
-        if pd.isna(date):
+        if not _ISO_DATE.match(row["date"]):
             raise ValueError
+        date = pd.Timestamp(row["date"][:10]).normalize()
     except (ValueError, TypeError):
-        problems.append(InputError(f"{row['date']!r} is not a date", field="date", **where,
-                                   hint="write dates as YYYY-MM-DD"))
+        problems.append(InputError(f"{row['date']!r} is not a date in YYYY-MM-DD form",
+                                   field="date", **where,
+                                   hint="write dates as YYYY-MM-DD (12/03/2026 is ambiguous)"))
         date = pd.NaT
     for column in ("enclosure",):
         if not row[column]:

@@ -116,23 +116,10 @@ def _by_id(items, item_id: str, what: str):
 
 
 def _library_species() -> set[str]:
-    """Species ids in the library's own table (empty if that table is not available)."""
-    try:
-        from audit_lib import targets
-    except ImportError:
-        return set()
-    for name in ("species_ids", "load_species", "read_species_table", "species_table"):
-        func = getattr(targets, name, None)
-        if callable(func):
-            try:
-                table = func()
-            except Exception:  # noqa: BLE001 - the library table is optional here
-                return set()
-            if isinstance(table, pd.DataFrame):
-                column = "id" if "id" in table.columns else table.columns[0]
-                return set(table[column].astype(str))
-            return {str(getattr(t, "id", t)) for t in table}
-    return set()
+    """Species ids of the library's own table (:func:`audit_lib.targets.read_species_table`)."""
+    from audit_lib.targets import read_species_table
+
+    return set(read_species_table()["id"].astype(str))
 
 
 def _spectrum_problems(records: SiteFile, root: Path, path: Path, lines) -> list[InputError]:
@@ -140,14 +127,10 @@ def _spectrum_problems(records: SiteFile, root: Path, path: Path, lines) -> list
 
     problems = []
     files = [(f"lamp_models[{i}].spectrum", m.spectrum)
-             for i, m in enumerate(records.lamp_models) if m.spectrum]
-    files += [(f"meters[{i}].spectral_response", m.spectral_response)
-              for i, m in enumerate(records.meters) if m.spectral_response]
+             for i, m in enumerate(records.lamp_models) if m is not None and m.spectrum]
     for key, name in files:
         if not (root / name).is_file() or name.lower().endswith(".xlsx"):
             continue  # reported by the file check
-        if key.startswith("meters"):
-            continue  # a relative response, read by audit_lib.meters
         try:
             read_spectrum(root / name)
         except InputError as exc:

@@ -25,6 +25,7 @@ PLAUSIBLE_MAX = {
     "illuminance_lux": 200_000.0,
 }
 _HEADER = re.compile(r"^\s*(\[\[?)\s*([A-Za-z0-9_.\-\s\"]+?)\s*\]\]?\s*(#.*)?$")
+_KEYED = re.compile(r"^\[([A-Za-z0-9_]+)\] (.*)$", re.DOTALL)
 _KEY = re.compile(r"^\s*([A-Za-z0-9_\-]+)\s*=")
 
 
@@ -143,6 +144,12 @@ def schema_problems(exc, path: Path, lines: dict[str, int]) -> list[InputError]:
         loc = tuple(error["loc"])
         field = key_path(loc)
         message = error["msg"].removeprefix("Value error, ")
+        hint = _hint(error, loc)
+        keyed = _KEYED.match(message)
+        if keyed:  # raised for one key by a record-level validator: "[key] message || hint"
+            field = f"{field}.{keyed.group(1)}" if field else keyed.group(1)
+            message, _, hint = keyed.group(2).partition(" || ")
+            hint = hint or None
         if error["type"] == "string_pattern_mismatch" and ID_PATTERN in str(error.get("ctx")):
             message = f"{error.get('input')!r} is not a safe id"
         elif error["type"] == "extra_forbidden":
@@ -150,13 +157,15 @@ def schema_problems(exc, path: Path, lines: dict[str, int]) -> list[InputError]:
         elif error["type"] == "missing":
             message = "required key is missing"
         problems.append(InputError(message, path=path, line=line_of(field, lines),
-                                   field=field, hint=_hint(error, loc)))
+                                   field=field, hint=hint))
     return problems
 
 
 def _duplicates(items, prefix: str, path: Path, lines: dict, what: str) -> list[InputError]:
     seen, problems = {}, []
     for i, item in enumerate(items):
+        if item is None:
+            continue
         if item.id in seen:
             field = f"{prefix}[{i}].id"
             problems.append(InputError(
@@ -164,6 +173,11 @@ def _duplicates(items, prefix: str, path: Path, lines: dict, what: str) -> list[
                 field=field, hint=f"already used by {prefix}[{seen[item.id]}]; ids must be unique"))
         seen.setdefault(item.id, i)
     return problems
+
+
+def _live(items) -> list:
+    """The valid items of a list from :func:`partial_site` (without the None gaps)."""
+    return [item for item in items if item is not None]
 
 
 def _missing_ref(value, known, field, what, path, lines, line=None) -> InputError:
@@ -194,8 +208,9 @@ def partial_site(data) -> tuple[SiteFile, dict[str, set[str]]]:
     """Validate ``site.toml`` data item by item; keep the valid items.
 
     Used when the whole file does not validate, so that references, dates and readings can
-    still be checked (all problems at once). Returns the valid items and, per list, the ids
-    of the items dropped as invalid (references to those are not reported again).
+    still be checked (all problems at once). Returns the valid items (None in place of an
+    invalid one) and, per list, the ids of the items dropped as invalid (references to those
+    are not reported again).
     """
     from pydantic import TypeAdapter, ValidationError
 
@@ -214,6 +229,7 @@ def partial_site(data) -> tuple[SiteFile, dict[str, set[str]]]:
             try:
                 kept[key].append(adapter.validate_python(item))
             except ValidationError:
+                kept[key].append(None)  # keeps the indices of the key paths
                 if isinstance(item, dict) and isinstance(item.get("id"), str):
                     dropped[key].add(item["id"])
     try:
@@ -238,9 +254,9 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
     p += _duplicates(site.enclosures, "enclosures", path, lines, "enclosure")
     p += _duplicates(site.schedules, "schedules", path, lines, "schedule")
     p += _duplicates(site.species, "species", path, lines, "species")
-    models = {m.id for m in site.lamp_models} | dropped.get("lamp_models", set())
-    schedules = {s.id for s in site.schedules} | dropped.get("schedules", set())
-    species = known_species | {s.id for s in site.species} | dropped.get("species", set())
+    models = {m.id for m in _live(site.lamp_models)} | dropped.get("lamp_models", set())
+    schedules = {s.id for s in _live(site.schedules)} | dropped.get("schedules", set())
+    species = known_species | {s.id for s in _live(site.species)} | dropped.get("species", set())
     if site.site is not None:
         p += _file_problem(root, site.site.logo, "site.logo", path, lines)
 
@@ -251,10 +267,14 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
                                 hint=f"today is {today}; check the year"))
 
     for i, meter in enumerate(site.meters):
+        if meter is None:
+            continue
         future(meter.calibration_date, f"meters[{i}].calibration_date", "calibration date")
         p += _file_problem(root, meter.spectral_response, f"meters[{i}].spectral_response",
                            path, lines)
     for i, model in enumerate(site.lamp_models):
+        if model is None:
+            continue
         p += _file_problem(root, model.spectrum, f"lamp_models[{i}].spectrum", path, lines)
         if model.kind == "led_array":
             p += _duplicates(model.emitters, f"lamp_models[{i}].emitters", path, lines, "emitter")
@@ -270,6 +290,8 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
                                 line=line_of(f"lamp_models[{i}]", lines),
                                 field=f"lamp_models[{i}]", hint="add [[lamp_models.bands]]"))
     for i, enc in enumerate(site.enclosures):
+        if enc is None:
+            continue
         e = f"enclosures[{i}]"
         for j, sp in enumerate(enc.species):
             if sp not in species:
@@ -285,6 +307,17 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
             if lamp.model not in models:
                 p.append(_missing_ref(lamp.model, models, f"{lf}.model", "lamp model", path,
                                       lines))
+            model = next((m for m in _live(site.lamp_models) if m.id == lamp.model), None)
+            count = 0
+            if model is not None and model.kind == "led_array":
+                count = len(model.layout) + sum(g.rows * g.columns for g in model.grids)
+            bad = [n for n in lamp.failed_emitters if not 1 <= n <= count]
+            if model is not None and bad:
+                p.append(InputError(
+                    f"no emitter number {bad[0]} in lamp model {model.id!r}", path=path,
+                    line=line_of(f"{lf}.failed_emitters", lines), field=f"{lf}.failed_emitters",
+                    hint=(f"emitters are numbered 1..{count} in layout order, then grid by grid"
+                          if count else "only LED arrays have numbered emitters")))
             if lamp.schedule is not None and lamp.schedule not in schedules:
                 p.append(_missing_ref(lamp.schedule, schedules, f"{lf}.schedule", "schedule",
                                       path, lines))
@@ -325,8 +358,10 @@ def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today:
                       dropped: dict[str, set[str]] | None = None) -> list[InputError]:
     """Check readings against the site: known ids, dates, plausible values."""
     dropped = dropped or {}
-    enclosures = {e.id: e for e in site.enclosures}
-    meters = {m.id for m in site.meters} | dropped.get("meters", set())
+    enclosures: dict = {}
+    for enc in _live(site.enclosures):
+        enclosures.setdefault(enc.id, enc)  # the first of duplicates, as reported
+    meters = {m.id for m in _live(site.meters)} | dropped.get("meters", set())
     problems = []
     for row in readings.itertuples(index=False):
         where = {"path": root / "readings" / row.source_file, "line": int(row.source_line)}
@@ -344,7 +379,7 @@ def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today:
             spots = {"floor"} | {s.id for s in enc.surfaces} | {q.id for q in enc.positions}
             if row.position and row.position not in spots:
                 problems.append(_missing_ref(row.position, spots, "position",
-                                             f"position in enclosure {enc.id!r} with",
+                                             f"position in enclosure {enc.id!r}",
                                              **_at(where)))
         if row.meter and row.meter not in meters:
             problems.append(_missing_ref(row.meter, meters, "meter", "meter", **_at(where)))

@@ -13,7 +13,16 @@ import datetime as dt
 import re
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, StringConstraints, model_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    StringConstraints,
+    field_validator,
+    model_validator,
+)
+
+from audit_lib.errors import InputError
 
 FORMAT_VERSION = 1
 ID_PATTERN = r"^[a-z0-9][a-z0-9_-]*$"
@@ -50,16 +59,13 @@ def parse_quantity(text: str, kind: str) -> float:
     float
         The value in SI units (m, W m-2, lx, s). [SI]
     """
-    from audit_lib.errors import InputError
     from audit_lib.units import to_si
 
     match = _QUANTITY.match(text)
     if match is None:
-        raise ValueError(f"cannot read {text!r} as '<number> <unit>', e.g. '45 cm'")
-    try:
-        return float(to_si(float(match.group(1)), match.group(2), kind))
-    except InputError as exc:
-        raise ValueError(exc.message + (f" ({exc.hint})" if exc.hint else "")) from None
+        raise InputError(f"cannot read {text!r} as '<number> <unit>'",
+                         hint="write a number and a unit, e.g. \"45 cm\"")
+    return float(to_si(float(match.group(1)), match.group(2), kind))
 
 
 class Record(BaseModel):
@@ -82,13 +88,16 @@ class Record(BaseModel):
                     break
                 value = data.pop(stem)
                 if name in data:
-                    raise ValueError(f"give either '{stem}' or '{name}', not both")
+                    raise ValueError(f"[{stem}] give either '{stem}' or '{name}', not both")
                 if not isinstance(value, str):
                     raise ValueError(
-                        f"'{stem}' needs a unit: write {stem} = \"{value} <unit>\" "
-                        f"or {name} = {value} in SI"
+                        f"[{stem}] a number without a unit || write {stem} = "
+                        f"\"{value} <unit>\" or {name} = {value} in SI"
                     )
-                data[name] = parse_quantity(value, kind)
+                try:
+                    data[name] = parse_quantity(value, kind)
+                except InputError as exc:
+                    raise ValueError(f"[{stem}] {exc.message} || {exc.hint or ''}") from None
                 break
         return data
 
@@ -110,18 +119,19 @@ class SiteInfo(Record):
     audit_dates: list[dt.date] = []
     note: str = ""
 
-    @model_validator(mode="after")
-    def _check_zone(self):
+    @field_validator("time_zone")
+    @classmethod
+    def _check_zone(cls, value: str) -> str:
         from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
         try:
-            ZoneInfo(self.time_zone)
+            ZoneInfo(value)
         except (ZoneInfoNotFoundError, ValueError):
             raise ValueError(
-                f"unknown time zone {self.time_zone!r}; use an IANA name such as "
+                f"unknown time zone {value!r}; use an IANA name such as "
                 "'Europe/London' or 'UTC'"
             ) from None
-        return self
+        return value
 
 
 class Meter(Record):
