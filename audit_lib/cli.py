@@ -149,6 +149,37 @@ def _run_forecast(args) -> int:
     return 0
 
 
+def _add_sun_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "sun", help="sunrise, sunset, day length and clear-sky UV Index of a day at a place"
+    )
+    p.add_argument("--latitude", type=float, required=True, help="degrees, north positive")
+    p.add_argument("--longitude", type=float, default=0.0, help="degrees, east positive")
+    p.add_argument("--date", required=True, help="the day, YYYY-MM-DD")
+    p.add_argument("--utc-offset", type=float, default=0.0,
+                   help="local time minus UTC in hours, e.g. 1 for summer time in London")
+    p.add_argument("--ozone", type=float, default=300.0, help="total ozone column [DU]")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(handler=_run_sun)
+
+
+def _run_sun(args) -> int:
+    import datetime as dt
+    import json
+
+    from audit_lib.sunlight import format_sun_summary, sun_summary
+
+    try:
+        day = dt.date.fromisoformat(args.date)
+    except ValueError:
+        raise InputError(f"{args.date!r} is not a date", field="--date",
+                         hint="write it as YYYY-MM-DD") from None
+    summary = sun_summary(args.latitude, args.longitude, day, utc_offset_h=args.utc_offset,
+                          ozone_du=args.ozone)
+    print(json.dumps(summary, indent=2) if args.json else format_sun_summary(summary))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser with every subcommand registered."""
     parser = argparse.ArgumentParser(
@@ -157,7 +188,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     subparsers = parser.add_subparsers(dest="command", required=True)
     for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,
-                _add_import_parser, _add_forecast_parser):
+                _add_import_parser, _add_forecast_parser, _add_sun_parser):
         add(subparsers)
     return parser
 

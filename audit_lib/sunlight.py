@@ -336,3 +336,77 @@ def clear_sky_daily_dose_sed(latitude_deg, date, *, ozone_du=REFERENCE_OZONE_DU)
 
     day = clear_sky_uvi_day(latitude_deg, 0.0, date, ozone_du=ozone_du, step_s=60.0)
     return float(np.sum(erythemal_from_uv_index(day["uvi"].to_numpy())) * 60.0 / SED_J_M2)
+
+
+def sun_summary(
+    latitude_deg, longitude_deg, date, *, utc_offset_h=0.0, ozone_du=REFERENCE_OZONE_DU
+) -> dict:
+    """Sunrise, solar noon, sunset, day length and clear-sky UV figures of one day.
+
+    Parameters
+    ----------
+    latitude_deg : float
+        Latitude, north positive [deg].
+    longitude_deg : float
+        Longitude, east positive [deg].
+    date : datetime.date
+        Local calendar day.
+    utc_offset_h : float
+        Local time minus UTC [h].
+    ozone_du : float
+        Total ozone column [DU].
+
+    Returns
+    -------
+    dict
+        ``date``, ``sunrise``, ``solar_noon``, ``sunset`` (local ``"HH:MM"`` or ``""``),
+        ``day_length_h`` [h], ``peak_uvi`` [-] and ``daily_sed`` [SED] (NOAA GML solar
+        position; Madronich 2007 clear-sky UV Index).
+    """
+    times = sun_times(latitude_deg, longitude_deg, date, utc_offset_h)
+    day = clear_sky_uvi_day(latitude_deg, longitude_deg, date, ozone_du=ozone_du,
+                            utc_offset_h=utc_offset_h)  # fmt: skip
+
+    def clock(minutes):
+        if not np.isfinite(minutes):
+            return ""
+        m = int(round(minutes)) % 1440
+        return f"{m // 60:02d}:{m % 60:02d}"
+
+    return {
+        "date": _as_date(date).isoformat(),
+        "latitude_deg": float(latitude_deg),
+        "longitude_deg": float(longitude_deg),
+        "sunrise": clock(times.sunrise_min),
+        "solar_noon": clock(times.solar_noon_min),
+        "sunset": clock(times.sunset_min),
+        "day_length_h": round(times.day_length_h, 4),
+        "ozone_du": float(ozone_du),
+        "peak_uvi": round(float(day["uvi"].max()), 3),
+        "daily_sed": round(clear_sky_daily_dose_sed(latitude_deg, date, ozone_du=ozone_du), 2),
+    }
+
+
+def format_sun_summary(summary: dict) -> str:
+    """Plain-text table of :func:`sun_summary` for the command line."""
+    minutes = int(round(summary["day_length_h"] * 60))
+    rows = [
+        ("date", summary["date"]),
+        ("place", f"{summary['latitude_deg']:g} deg N, {summary['longitude_deg']:g} deg E"),
+        ("sunrise", summary["sunrise"] or "none (polar day or night)"),
+        ("solar noon", summary["solar_noon"]),
+        ("sunset", summary["sunset"] or "none (polar day or night)"),
+        ("day length", f"{minutes // 60} h {minutes % 60:02d} min"),
+        (
+            "clear-sky UV Index at noon",
+            f"{summary['peak_uvi']:.1f} (ozone {summary['ozone_du']:g} DU)",
+        ),
+        ("clear-sky daily dose", f"{summary['daily_sed']:.1f} SED"),
+    ]
+    width = max(len(k) for k, _ in rows)
+    lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
+    lines.append(
+        "Sources: NOAA GML solar position; Madronich 2007 clear-sky UV Index "
+        "(no cloud, aerosol, altitude or snow)."
+    )
+    return "\n".join(lines)
