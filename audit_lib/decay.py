@@ -166,8 +166,15 @@ def _fit_one(model: str, hours: np.ndarray, values: np.ndarray, sigma) -> ModelF
         p0 = (y0, slope)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # OptimizeWarning for an infinite covariance
-        params, cov = curve_fit(MODELS[model], hours, values, p0=p0, sigma=sigma,
-                                absolute_sigma=sigma is not None, maxfev=10000)
+        try:
+            params, cov = curve_fit(MODELS[model], hours, values, p0=p0, sigma=sigma,
+                                    absolute_sigma=sigma is not None, maxfev=10000)
+        except RuntimeError:  # no convergence
+            params, cov = None, None
+    if params is None:
+        warnings.warn(f"{model} decay fit did not converge", DecayFitWarning, stacklevel=3)
+        nan2 = (math.nan, math.nan)
+        return ModelFit(model, nan2, nan2, np.full((2, 2), np.nan), math.inf, math.inf)
     resid = values - MODELS[model](hours, *params)
     rss = float(np.sum(resid**2))
     n = len(values)
@@ -219,7 +226,7 @@ def fit_decay(hours, values, *, sigma=None) -> DecayFit:
     fits = {name: _fit_one(name, hours, values, sigma) for name in MODELS}
     if fits["linear"].params[1] <= 0:
         return DecayFit(hours, values, "no decay", fits)
-    if np.all(values > 0):
+    if np.all(values > 0) and math.isfinite(fits["exponential"].aic):
         best = min(fits, key=lambda name: fits[name].aic)
     else:
         # log of a zero output is undefined for the exponential model: keep linear.

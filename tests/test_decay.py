@@ -60,8 +60,8 @@ def test_forecast_of_noise_free_exponential_is_analytic():
 
 def test_forecast_band_matches_delta_method_for_linear_model():
     """For the linear model h = (y0 - T) / b; first-order error propagation (delta method,
-    JCGM 100:2008 GUM section 5.2, from memory) of the fit covariance gives a standard deviation that
-    the 16-84 % band of the parameter draws reproduces within 15 %."""
+    JCGM 100:2008 GUM section 5.2, from memory) of the fit covariance gives a standard
+    deviation that the 16-84 % band of the parameter draws reproduces within 15 %."""
     rng = np.random.default_rng(3)
     hours = np.linspace(0, 6000, 8)
     values = 3.0 - 1.5e-4 * hours + 0.03 * rng.standard_normal(hours.size)
@@ -138,3 +138,22 @@ def test_replacement_schedule_states():
     assert row["loss_per_1000h_pct"] == pytest.approx(100 * (1 - math.exp(-0.2)), rel=1e-4)
     assert table.set_index("enclosure").loc["forest-2", "points"] == 4
     assert list(table["state"]) == sorted(table["state"], key=decay.STATES.index)
+
+
+def test_exponential_fit_failure_falls_back_to_linear(monkeypatch):
+    """If scipy's least squares does not converge (curve_fit raises RuntimeError, as its
+    documentation says), the exponential fit is marked failed with a warning and the
+    linear fit is used."""
+    import scipy.optimize
+
+    real = scipy.optimize.curve_fit
+
+    def failing(f, *args, **kwargs):
+        if f is decay.exponential_model:
+            raise RuntimeError("Optimal parameters not found")
+        return real(f, *args, **kwargs)
+
+    monkeypatch.setattr(scipy.optimize, "curve_fit", failing)
+    with pytest.warns(decay.DecayFitWarning, match="exponential decay fit did not converge"):
+        fit = decay.fit_decay(HOURS, 3.0 - 1e-4 * HOURS)
+    assert fit.best == "linear" and math.isinf(fit.fits["exponential"].aic)
