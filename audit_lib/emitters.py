@@ -261,8 +261,8 @@ def pattern_solid_angle(pattern: AngularPattern | float) -> float:
     """Effective solid angle Omega = integral of I/I0 over the sphere [sr].
 
     The on-axis intensity is I0 = flux / Omega. For cos^m(theta), Omega = 2 pi / (m + 1)
-    (Moreno & Sun 2008); a tabulated pattern is integrated by the trapezoid rule
-    over 2 pi sin(theta) d(theta).
+    (Moreno & Sun 2008); a tabulated pattern (linear between its rows) is integrated
+    over 2 pi sin(theta) d(theta) with Simpson's rule on a fine grid.
 
     Parameters
     ----------
@@ -275,9 +275,21 @@ def pattern_solid_angle(pattern: AngularPattern | float) -> float:
         Effective solid angle [sr].
     """
     if isinstance(pattern, AngularPattern):
-        theta = np.radians(np.linspace(0.0, pattern.angle_deg[-1], 4001))
-        rel = pattern_relative_intensity(pattern, np.cos(theta))
-        return float(np.trapezoid(rel * 2 * np.pi * np.sin(theta), theta))
+        from scipy.integrate import simpson
+
+        edges = np.radians(pattern.angle_deg)
+        total = 0.0
+        for a, b, ia, ib in zip(
+            edges[:-1],
+            edges[1:],
+            pattern.relative_intensity[:-1],
+            pattern.relative_intensity[1:],
+            strict=True,
+        ):  # exact for the piecewise-linear table up to Simpson's error on sin
+            theta = np.linspace(a, b, 513)
+            rel = ia + (ib - ia) * (theta - a) / (b - a)
+            total += simpson(rel * 2 * np.pi * np.sin(theta), x=theta)
+        return float(total)
     return 2.0 * np.pi / (float(pattern) + 1.0)
 
 
