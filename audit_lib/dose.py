@@ -29,7 +29,7 @@ from audit_lib.errors import InputError
 from audit_lib.metrics import SED_J_M2, erythemal_from_uv_index
 from audit_lib.photoperiod import DAY_S, DailyProfile, daily_profile, lit_hours, parse_clock
 
-_CHUNK = 120  # time steps per block when integrating maps (bounds memory)
+_CHUNK = 32  # distinct time steps per block when integrating maps (bounds memory)
 
 
 @dataclass(frozen=True)
@@ -163,26 +163,38 @@ def _contributions(uvi_full, fractions: dict, what: str) -> list:
 
 
 def _series_stats(pairs, n_steps, step_s, uvi_range, mask):
-    """Integral, peak, exposed time and time in range of sum_l value_l * fraction_l(t)."""
+    """Integral, peak, exposed time and time in range of sum_l value_l * fraction_l(t).
+
+    Steps with the same output fractions of every lamp give the same values, so each
+    distinct combination is evaluated once and weighted by how often it occurs (exact; it
+    makes plateaus of on/off schedules cheap on large maps).
+    """
     shape = np.broadcast_shapes(*(v.shape for v, _ in pairs)) if pairs else ()
     integral = np.zeros(shape)
     peak = np.zeros(shape)
     exposed = np.zeros(shape)
     in_range = np.zeros(shape)
-    for a in range(0, n_steps, _CHUNK):
-        b = min(a + _CHUNK, n_steps)
-        block = np.zeros((b - a, *shape))
-        for value, frac in pairs:
-            block += frac[a:b].reshape((-1,) + (1,) * len(shape)) * value
-        if mask is not None:
-            block *= mask[a:b].reshape((-1,) + (1,) * len(shape))
-        integral += block.sum(axis=0) * step_s
+    fractions = np.column_stack([frac for _, frac in pairs]) if pairs else np.zeros((n_steps, 0))
+    if mask is not None:
+        fractions = fractions * np.asarray(mask, dtype=float)[:, None]
+    fractions = fractions[np.any(fractions > 0, axis=1)]
+    if len(fractions) == 0:
+        return integral, peak, exposed, in_range
+    combos, counts = np.unique(fractions, axis=0, return_counts=True)
+    values = [v for v, _ in pairs]
+    expand = (1,) * len(shape)
+    for a in range(0, len(combos), _CHUNK):
+        rows, weight = combos[a : a + _CHUNK], counts[a : a + _CHUNK].reshape((-1, *expand))
+        block = np.zeros((len(rows), *shape))
+        for j, value in enumerate(values):
+            block += rows[:, j].reshape((-1, *expand)) * value
+        integral += (block * weight).sum(axis=0) * step_s
         peak = np.maximum(peak, block.max(axis=0))
         on = block > 0
-        exposed += on.sum(axis=0) * step_s
+        exposed += (on * weight).sum(axis=0) * step_s
         if uvi_range is not None:
             lo, hi = uvi_range
-            in_range += (on & (block >= lo) & (block <= hi)).sum(axis=0) * step_s
+            in_range += ((on & (block >= lo) & (block <= hi)) * weight).sum(axis=0) * step_s
     return integral, peak, exposed, in_range
 
 
