@@ -273,6 +273,46 @@ class SeasonalSchedule:
 DAY_SCHEDULES = (OnOffSchedule, LevelSchedule, NaturalDaySchedule)
 
 
+def schedule_by_season(parts, *, default=None, hemisphere: str = "north", name: str = ""):
+    """A :class:`SeasonalSchedule` from schedules given by season name or by months.
+
+    Parameters
+    ----------
+    parts : dict
+        Keys are season names (``"winter"``, ``"spring"``, ``"summer"``, ``"autumn"``;
+        meteorological seasons) or tuples of month numbers; values are day schedules.
+    default : day schedule, optional
+        For the months no key covers.
+    hemisphere : str
+        ``"north"`` or ``"south"`` (southern seasons are shifted by six months).
+    name : str
+        Label.
+
+    Returns
+    -------
+    SeasonalSchedule
+    """
+    _check_choice(hemisphere, ("north", "south"), "hemisphere")
+    by_month = {m: default for m in range(1, 13)} if default is not None else {}
+    for key, schedule in parts.items():
+        if isinstance(key, str):
+            if key not in SEASON_MONTHS:
+                raise InputError(
+                    f"{key!r} is not a season",
+                    field="seasons",
+                    hint=f"use {', '.join(SEASON_MONTHS)} or a list of months",
+                )
+            months = SEASON_MONTHS[key]
+            if hemisphere == "south":
+                months = tuple((m + 5) % 12 + 1 for m in months)
+        else:
+            months = tuple(int(m) for m in key)
+            if not all(1 <= m <= 12 for m in months):
+                raise InputError(f"months {key!r} must be 1-12", field="seasons")
+        by_month.update({m: schedule for m in months})
+    return SeasonalSchedule(by_month=by_month, name=name)
+
+
 @dataclass(frozen=True)
 class DailyProfile:
     """Output fraction of one lamp or circuit through one day.

@@ -130,3 +130,22 @@ def test_whole_day_and_zero_length():
     switches, common practice reading of such settings)."""
     assert full_output_hours(daily_profile(OnOffSchedule(on="00:00", off="24:00"))) == 24.0
     assert full_output_hours(daily_profile(OnOffSchedule(on="09:00", off="09:00"))) == 0.0
+
+
+def test_schedule_by_season_hemispheres():
+    """Meteorological seasons (WMO convention: winter = Dec-Feb in the north); the southern
+    hemisphere's winter is June-August."""
+    from audit_lib.photoperiod import schedule_by_season
+
+    short = OnOffSchedule(on="09:00", off="17:00")
+    long_ = OnOffSchedule(on="07:00", off="21:00")
+    north = schedule_by_season({"winter": short}, default=long_)
+    south = schedule_by_season({"winter": short}, default=long_, hemisphere="south")
+    jan, jul = dt.date(2026, 1, 15), dt.date(2026, 7, 15)
+    assert full_output_hours(daily_profile(north, jan)) == pytest.approx(8.0)
+    assert full_output_hours(daily_profile(north, jul)) == pytest.approx(14.0)
+    assert full_output_hours(daily_profile(south, jul)) == pytest.approx(8.0)
+    by_months = schedule_by_season({(11, 12, 1, 2): short}, default=long_)
+    assert full_output_hours(daily_profile(by_months, dt.date(2026, 11, 15))) == 8.0
+    with pytest.raises(InputError, match="seasons: 'monsoon' is not a season"):
+        schedule_by_season({"monsoon": short}, default=long_)
