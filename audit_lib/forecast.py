@@ -101,7 +101,10 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
     site_path : str or PathLike
         The site folder; it is validated first and nothing is written if it is invalid.
     files : sequence of path, optional
-        Readings files to import; by default every file in ``SITE/readings``.
+        Readings files to import; by default every file in ``SITE/readings``. Every file
+        is read and checked against the site (known enclosures, lamps, positions, meters;
+        no future dates) before anything is imported; each file is then imported in its
+        own transaction.
     db_path : str or PathLike, optional
         The database; default ``SITE/history.sqlite``.
     today : datetime.date, optional
@@ -117,13 +120,22 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
 
     site = load_site(site_path, today=today)
     db_path = default_db_path(site_path) if db_path is None else Path(db_path)
-    sync_lamp_installs(site, db_path)
     files = [Path(f) for f in files] or readings_files(Path(site_path) / "readings")
-    summaries = []
-    for file in files:
-        summaries.append(history.import_readings(db_path, read_readings(file),
-                                                 source_file=file.name))
-    return summaries
+    tables = [read_readings(file) for file in files]  # every file parsed before any import
+    if files:
+        import datetime as dt
+
+        from audit_lib.errors import InputErrors
+        from audit_lib.site_checks import readings_problems
+
+        day = today or dt.datetime.now(dt.timezone.utc).date()
+        problems = [p for t in tables
+                    for p in readings_problems(t, site.records, Path(site_path), day)]
+        if problems:
+            raise InputErrors(problems)
+    sync_lamp_installs(site, db_path)
+    return [history.import_readings(db_path, table, source_file=file.name)
+            for file, table in zip(files, tables, strict=True)]
 
 
 def zone_of_enclosure(site, enclosure) -> int | None:

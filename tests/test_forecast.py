@@ -90,3 +90,18 @@ def test_schedule_daily_hours():
     assert forecast.schedule_daily_hours(seasonal) == pytest.approx((6 * 14 + 6 * 10) / 12)
     natural = SimpleNamespace(kind="natural", on=None, off=None, periods=[])
     assert forecast.schedule_daily_hours(natural) == forecast.NATURAL_DAY_HOURS
+
+
+def test_explicit_file_is_checked_against_the_site(site, tmp_path, capsys):
+    """A readings file given on the command line is checked like the site's own (issue 5,
+    validation: readings for an enclosure that does not exist); nothing is written."""
+    extra = tmp_path / "extra.csv"
+    extra.write_text("date,enclosure,lamp,position,quantity,value,unit\n"
+                     "2026-02-01,viv-9,tube-1,basking,uvi,2.0,UVI\n")
+    assert cli.main(["import", str(site), str(extra)]) == 2
+    assert "viv-9" in capsys.readouterr().err
+    assert not (site / "history.sqlite").exists()
+    extra.write_text("date,enclosure,lamp,position,quantity,value,unit\n"
+                     "2026-02-01,viv-1,tube-1,basking,uvi,2.0,UVI\n")
+    assert cli.main(["import", str(site), str(extra)]) == 0
+    assert "extra.csv: 1 readings, 1 added" in capsys.readouterr().out
