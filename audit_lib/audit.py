@@ -171,6 +171,49 @@ def choose_audit_date(site, audit_date=None) -> dt.date:
     return dt.date.today()
 
 
+def open_enclosure(site_dir, enclosure_id: str = "", *, audit_date: str = "",
+                   spacing_m: float = DEFAULT_SPACING_M,
+                   emitter_failure_probability: float = 0.05):
+    """Check a workbook's parameters and load its site: returns ``(site, enclosure_id)``.
+
+    Parameters
+    ----------
+    site_dir : str or PathLike
+        The site folder.
+    enclosure_id : str
+        Enclosure id; empty for the site's first enclosure.
+    audit_date : str
+        ISO date or empty.
+    spacing_m : float
+        Map grid spacing, 0.002-0.2 [m].
+    emitter_failure_probability : float
+        0-1 [-].
+
+    Raises
+    ------
+    InputError
+        A parameter is out of range or the enclosure does not exist.
+    """
+    from audit_lib.site import load_site
+
+    if not 0.002 <= float(spacing_m) <= 0.2:
+        raise InputError(f"map spacing {spacing_m!r} m is outside 0.002-0.2 m",
+                         field="map_spacing_m", hint="0.02 m suits most enclosures")
+    if not 0.0 <= float(emitter_failure_probability) <= 1.0:
+        raise InputError(f"probability {emitter_failure_probability!r} is outside 0-1",
+                         field="emitter_failure_probability")
+    site = load_site(site_dir)
+    choose_audit_date(site, audit_date or None)
+    ids = [e.id for e in site.records.enclosures]
+    if not ids:
+        raise InputError("the site has no enclosures", path=site_dir, field="enclosures")
+    enclosure_id = enclosure_id or ids[0]
+    if enclosure_id not in ids:
+        raise InputError(f"no enclosure {enclosure_id!r} in the site", field="enclosure_id",
+                         hint="enclosures: " + ", ".join(ids))
+    return site, enclosure_id
+
+
 def _only(scene, lamp):
     return replace(scene, lamps=(lamp,))
 
@@ -357,7 +400,31 @@ def _failure_table(scene, surface, failed, uvi_range, calibration, probability, 
 
 def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                     spacing_m: float = DEFAULT_SPACING_M,
-                    emitter_failure_probability: float = 0.05) -> EnclosureAudit:
+                    emitter_failure_probability: float = 0.05,
+                    with_failures: bool = True) -> EnclosureAudit:
+    """Audit one enclosure of a loaded site; library warnings become the record's notes.
+
+    See :func:`_audit_enclosure` for the parameters.
+    """
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", AuditWarning)
+        audit = _audit_enclosure(site, enclosure_id, audit_date=audit_date,
+                                 spacing_m=spacing_m,
+                                 emitter_failure_probability=emitter_failure_probability,
+                                 with_failures=with_failures)
+    for w in caught:
+        text = str(w.message)
+        if not issubclass(w.category, AuditWarning):
+            warnings.showwarning(w.message, w.category, w.filename, w.lineno)
+        elif text not in audit.notes:
+            audit.notes.append(text)
+    return audit
+
+
+def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
+                     spacing_m: float = DEFAULT_SPACING_M,
+                     emitter_failure_probability: float = 0.05,
+                     with_failures: bool = True) -> EnclosureAudit:
     """Audit one enclosure of a loaded site.
 
     Parameters
@@ -373,6 +440,8 @@ def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     emitter_failure_probability : float
         Probability that one LED emitter is out at the next audit, for the Monte Carlo
         study; an assumption to set per audit, not a published figure [-].
+    with_failures : bool
+        Compute the LED failure scenarios (the site overview leaves them out).
 
     Returns
     -------
@@ -510,7 +579,7 @@ def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
         notes += [n for n in v.notes if n not in notes]
 
     failures, monte_carlo = (pd.DataFrame(), None)
-    if max_range:
+    if max_range and with_failures:
         failures, monte_carlo = _failure_table(scene, peak_surface, failed, max_range,
                                                calibration, emitter_failure_probability)
     if monte_carlo is not None:
@@ -554,3 +623,59 @@ def _provenance(site, enclosure_id, spacing_m, day) -> dict:
             "map_spacing_m": spacing_m,
             "targets": "Ferguson zones (data/ferguson_zones.csv), species table "
                        "(data/species_demo.csv) with the site's own species"}
+
+
+@dataclass
+class SiteAudit:
+    """Every enclosure of a site audited for the overview (see :func:`audit_site`).
+
+    Attributes
+    ----------
+    site_name : str
+        The site.
+    audit_date : datetime.date
+        The audit day.
+    audits : list of EnclosureAudit
+        The enclosures that could be audited, in site order.
+    errors : dict of str to str
+        Enclosure id to the error that stopped its audit.
+    auditor, organisation, client, logo_path : str
+        From the site file.
+    """
+
+    site_name: str
+    audit_date: dt.date
+    audits: list = field(default_factory=list)
+    errors: dict = field(default_factory=dict)
+    auditor: str = ""
+    organisation: str = ""
+    client: str = ""
+    logo_path: str | None = None
+
+
+def audit_site(site, *, audit_date=None, spacing_m: float = 0.04) -> SiteAudit:
+    """Audit every enclosure of a site without failure scenarios; errors are kept per enclosure.
+
+    Parameters
+    ----------
+    site : audit_lib.site.Site
+        A loaded site.
+    audit_date : str or datetime.date, optional
+        Audit day (default :func:`choose_audit_date`).
+    spacing_m : float
+        Map grid spacing [m] (coarser than a single report's by default).
+    """
+    from audit_lib.errors import AuditError
+
+    day = choose_audit_date(site, audit_date)
+    info = site.records.site
+    result = SiteAudit(site.name, day, auditor=info.auditor, organisation=info.organisation,
+                       client=info.client,
+                       logo_path=str(site.path_of(info.logo)) if info.logo else None)
+    for record in site.records.enclosures:
+        try:
+            result.audits.append(audit_enclosure(site, record.id, audit_date=day,
+                                                 spacing_m=spacing_m, with_failures=False))
+        except (AuditError, ValueError, ArithmeticError) as exc:
+            result.errors[record.id] = f"{type(exc).__name__}: {exc}"
+    return result

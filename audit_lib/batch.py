@@ -132,11 +132,15 @@ def _inside(out_dir: Path, path: Path) -> Path:
 
 
 def _init_worker(warm_up: str) -> None:
+    from multiprocessing.util import Finalize
+
     from audit_lib.notebooks import WarmKernel, make_exporter
 
-    _WORKER["kernel"] = WarmKernel(warm_up=warm_up)
+    kernel = WarmKernel(warm_up=warm_up)
+    _WORKER["kernel"] = kernel
     _WORKER["exporter"] = make_exporter()
-    _WORKER["kernel"].ensure_started()
+    kernel.ensure_started()
+    Finalize(kernel, kernel.shutdown, exitpriority=10)  # runs when the worker process ends
 
 
 def _first_line(text: str) -> str:
@@ -154,7 +158,7 @@ def _run_task(task: dict) -> dict:
     stem = task["stem"]
     html_path = _inside(out_dir, out_dir / REPORTS_DIR / f"{stem}.html")
     nb_path = _inside(out_dir, out_dir / REPORTS_DIR / f"{stem}.ipynb")
-    tmp_nb = nb_path.with_name(f".{nb_path.name}.part-{os.getpid()}")
+    tmp_nb = nb_path.with_name(f".{stem}.part-{os.getpid()}.ipynb")
     result = {"id": task["id"], "name": task["name"]}
     start = time.perf_counter()
     try:
@@ -341,7 +345,7 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     site = load_site(site_dir)
     ids = _select(site, only)
     (out_dir / REPORTS_DIR).mkdir(parents=True, exist_ok=True)
-    for stale in (out_dir / REPORTS_DIR).glob(".*.part-*"):
+    for stale in (out_dir / REPORTS_DIR).glob(".*.part-*"):  # left by an interrupted run
         stale.unlink(missing_ok=True)
     previous = _previous(out_dir, site.name)
     workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()

@@ -19,9 +19,8 @@ import os
 from pathlib import Path
 
 from audit_lib.errors import AuditError
+from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE
 
-#: MIME type of the machine-readable output a workbook publishes for the batch.
-REPORT_DATA_MIMETYPE = "application/vnd.audit-lib.report+json"
 #: Cells with these tags never show in a report.
 HIDDEN_TAGS = ("parameters", "injected-parameters", "report-data", "hide-in-report")
 #: Name of the Jupyter kernel the workbooks ask for (``metadata.kernelspec.name``).
@@ -249,6 +248,7 @@ class WarmKernel:
             str(input_path), str(output_path), parameters=parameters,
             engine_name=_ENGINE_NAME, kernel_name=self.kernel_name, km=self.km,
             progress_bar=False, execution_timeout=timeout,
+            request_save_on_cell_execute=False,
         )
 
     def shutdown(self) -> None:

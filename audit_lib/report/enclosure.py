@@ -1,0 +1,216 @@
+"""Tables, HTML blocks and the report data of one enclosure's audit (thin views of the record).
+
+Every function takes an :class:`audit_lib.audit.EnclosureAudit` and returns something a
+workbook cell shows as it is: an HTML block, a pandas table or a matplotlib figure. Text that
+comes from a site file is escaped here (:func:`html.escape`); pandas tables are escaped by
+pandas. Nothing is computed here that the report's reader would need to check: figures are
+the record's.
+"""
+
+from __future__ import annotations
+
+import math
+from html import escape
+
+import pandas as pd
+
+from audit_lib.report.index_page import state_class
+
+#: MIME type of the report data (see :mod:`audit_lib.notebooks`).
+REPORT_DATA_MIMETYPE = "application/vnd.audit-lib.report+json"
+
+
+class HTMLBlock(str):
+    """A string of finished HTML that a notebook shows as HTML."""
+
+    def _repr_html_(self) -> str:
+        return str(self)
+
+
+def _badge(state: str) -> str:
+    return f'<span class="state {state_class(state)}">{escape(state)}</span>'
+
+
+def _num(value, digits: int = 2) -> str:
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "–" if value is None or math.isnan(value) else "no limit"
+    return f"{value:.{digits}f}"
+
+
+def _finite(value):
+    if value is None:
+        return None
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def report_data(audit) -> dict:
+    """The JSON-able data the batch reads from an executed workbook.
+
+    ``report`` fills the template's header and provenance; ``results`` is the enclosure's
+    entry in ``results.json`` (verdict and every check with figure, unit, target range,
+    state and reason; infinite limits as null).
+    """
+    from audit_lib.report.cautions import CAUTIONS
+
+    facts = [("Site", audit.site_name),
+             ("Enclosure", f"{audit.enclosure_name} ({audit.enclosure_id})"),
+             ("Audit date", audit.audit_date.isoformat())]
+    facts += [(label, value) for label, value in (
+        ("Auditor", audit.auditor), ("Organisation", audit.organisation),
+        ("Client", audit.client)) if value]
+    checks = [{"name": c.name, "value": _finite(c.value), "unit": c.unit,
+               "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
+               "state": c.state, "reason": c.reason} for c in audit.checks]
+    provenance = [(k.replace("_", " ").capitalize(), str(v)) for k, v in audit.provenance.items()]
+    return {
+        "report": {"kind": "Enclosure lighting audit",
+                   "title": f"{audit.enclosure_name}", "facts": facts,
+                   "logo_path": audit.logo_path, "cautions": list(CAUTIONS),
+                   "provenance": provenance,
+                   "library_version": audit.provenance.get("library_version", "")},
+        "results": {"id": audit.enclosure_id, "name": audit.enclosure_name,
+                    "verdict": audit.verdict, "reason": audit.reason, "checks": checks},
+    }
+
+
+def publish_report_data(audit_or_data) -> None:
+    """Display the report data for the batch (hidden in reports by the ``report-data`` tag)."""
+    from IPython.display import display
+
+    data = audit_or_data if isinstance(audit_or_data, dict) else report_data(audit_or_data)
+    n = len(data.get("results", {}).get("checks", []))
+    display({REPORT_DATA_MIMETYPE: data,
+             "text/plain": f"report data recorded: verdict and {n} checks"}, raw=True)
+
+
+def summary(audit) -> HTMLBlock:
+    """Verdict, its reason, the species and their targets, and the notes."""
+    species = "".join(
+        f"<li><em>{escape(s.scientific_name)}</em>"
+        f"{escape(' – ' + s.common_name) if s.common_name else ''}: zone {s.zone} "
+        f"({escape(s.uv_provision.replace('_', ' '))})</li>"
+        for s in audit.species) or "<li>no species with a known zone</li>"
+    zone = ""
+    if audit.zone is not None:
+        z = audit.zone
+        zone = (f"<p>Targets, zone {z.zone}: basking maximum UV Index {z.max_uvi_low:g}–"
+                f"{z.max_uvi_high:g}; mean exposure {z.mean_uvi_low:g}–{z.mean_uvi_high:g} "
+                f"({escape(z.source)}; {escape(z.status)}).</p>")
+    notes = "".join(f"<li>{escape(n)}</li>" for n in audit.notes)
+    return HTMLBlock(
+        f'<div class="audit-summary"><p class="verdict">Verdict: {_badge(audit.verdict)}</p>'
+        f"<p>{escape(audit.reason)}</p><p>Species:</p><ul>{species}</ul>{zone}"
+        + (f'<div class="audit-notes"><strong>Notes</strong><ul>{notes}</ul></div>' if notes
+           else "") + "</div>")
+
+
+def checks_table(audit) -> HTMLBlock:
+    """Every check: figure, target range, state (word and colour) and reason."""
+    rows = []
+    for c in audit.checks:
+        target = f"{_num(c.target_low)} – {_num(c.target_high)}"
+        rows.append(f"<tr><td>{escape(c.name)}</td><td class='num'>{_num(c.value)}</td>"
+                    f"<td>{escape(c.unit)}</td><td class='num'>{target}</td>"
+                    f"<td>{_badge(c.state)}</td><td>{escape(c.reason)}</td></tr>")
+    return HTMLBlock(
+        '<table class="checks"><thead><tr><th>Check</th><th class="num">Figure</th>'
+        '<th>Unit</th><th class="num">Target</th><th>State</th><th>Reason</th></tr></thead>'
+        f"<tbody>{''.join(rows)}</tbody></table>")
+
+
+def actions_list(audit) -> HTMLBlock:
+    """Recommended actions, each with the numbers it rests on."""
+    items = "".join(f"<li><strong>{escape(a.kind)}</strong>: {escape(a.text)}</li>"
+                    for a in audit.actions)
+    return HTMLBlock(f'<ul class="actions">{items}</ul>' if items else
+                     "<p>No action needed on the checks made.</p>")
+
+
+def surface_table(audit) -> pd.DataFrame:
+    """UV Index statistics per surface (maximum, mean, minimum, shares)."""
+    t = audit.surface_stats
+    t = t[t["quantity"] == "uvi"].drop(columns="quantity")
+    t = t.assign(share_in_uvi_range_pct=100 * t.pop("share_in_uvi_range"),
+                 share_refuge_pct=100 * t.pop("share_refuge"))
+    return t.rename(columns={"maximum": "max_uvi", "mean": "mean_uvi", "minimum": "min_uvi"}) \
+        .round(2).set_index("surface")
+
+
+def points_table(audit) -> pd.DataFrame:
+    """Modelled UV Index (after calibration) beside the audit's readings at each position."""
+    p = audit.points
+    if p is None or not len(p):
+        return pd.DataFrame({"note": ["no named positions or position readings"]})
+    cols = ["position", "x_m", "y_m", "z_m", "modelled_uvi", "measured_uvi"]
+    return p[[c for c in cols if c in p.columns]].round(2).set_index("position")
+
+
+def monthly_table(audit) -> pd.DataFrame:
+    """Month by month at the basking maximum: light hours, doses, UV Index, the sun's dose."""
+    if audit.monthly is None:
+        return pd.DataFrame({"note": ["no lamp schedules"]})
+    keep = ["lit_hours", "sed", "vitamin_d_j_m2", "hours_in_range", "peak_uvi",
+            "mean_uvi_exposed", "sun_clear_sky_sed"]
+    return audit.monthly[[c for c in keep if c in audit.monthly.columns]].round(2)
+
+
+def dose_table(audit) -> pd.DataFrame:
+    """Daily doses at the basking maximum and for the animal's time budget."""
+    rows = {}
+    for label, dose in (("basking maximum", audit.basking_dose), ("animal (time budget)",
+                                                                   audit.animal_dose)):
+        if dose is not None:
+            rows[label] = {"erythemal_j_m2": float(dose.erythemal_j_m2), "sed": float(dose.sed),
+                           "vitamin_d_j_m2": float(dose.vitamin_d_j_m2),
+                           "hours_in_range": float(dose.hours_in_range),
+                           "peak_uvi": float(dose.peak_uvi),
+                           "mean_uvi_exposed": float(dose.mean_uvi_exposed)}
+    rows["clear-sky sun at the site"] = {"sed": audit.natural.get("daily_sed", math.nan),
+                                         "peak_uvi": audit.natural.get("peak_uvi", math.nan)}
+    return pd.DataFrame(rows).T.round(2)
+
+
+def spectrum_table(audit) -> pd.DataFrame:
+    """Per lamp model: peak, width, short-wave UVB share and vitamin-D/erythema ratio vs sun."""
+    keys = ["peak_nm", "fwhm_nm", "short_uvb_fraction", "vitd_to_erythemal_ratio",
+            "sun_vitd_to_erythemal_ratio", "cct_k", "risk_group"]
+    rows = {m: {k: v.get(k) for k in keys} for m, v in audit.spectra.items()}
+    return pd.DataFrame(rows).T if rows else pd.DataFrame({"note": ["no lamp spectra"]})
+
+
+def lamps_table(audit) -> pd.DataFrame:
+    """Lamp ages, decay and replacement forecast per lamp."""
+    t = audit.lamps
+    if t is None or not len(t):
+        return pd.DataFrame({"note": ["no lamps"]})
+    keep = ["lamp", "lamp_model", "installed_on", "age_days", "hours_now", "points", "model",
+            "loss_per_1000h_pct", "last_value", "target_min", "replace_by", "state"]
+    out = t[[c for c in keep if c in t.columns]].copy()
+    for c in ("installed_on", "replace_by"):
+        out[c] = pd.to_datetime(out[c]).dt.date
+    return out.round(2).set_index("lamp")
+
+
+def failures_table(audit) -> pd.DataFrame:
+    """LED emitter failure scenarios on the basking surface."""
+    if audit.failures is None or not len(audit.failures):
+        return pd.DataFrame({"note": ["no LED arrays: emitter failures do not apply"]})
+    t = audit.failures.copy()
+    t["share_in_range_pct"] = 100 * t.pop("share_in_range")
+    return t.round(2).set_index("scenario")
+
+
+def safety_table(audit) -> pd.DataFrame:
+    """Keeper-safety figures: the keeper check, and each lamp model's indicative risk group."""
+    rows = {}
+    for c in audit.checks:
+        if c.name.startswith("keeper exposure limit"):
+            rows[c.name] = {"figure": _num(c.value, 0), "unit": c.unit, "state": c.state,
+                            "reason": c.reason}
+    for model, m in audit.spectra.items():
+        rows[f"lamp model {model}"] = {
+            "figure": str(m.get("risk_group", "")), "unit": "risk group (indicative)",
+            "state": "", "reason": "IEC 62471 actinic and UVA groups from the lamp's spectrum "
+                                   "as modelled; a certificate needs a laboratory measurement."}
+    return pd.DataFrame(rows).T if rows else pd.DataFrame({"note": ["no lamps"]})
