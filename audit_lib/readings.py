@@ -155,7 +155,13 @@ def read_readings_with_problems(path: str | PathLike) -> tuple[pd.DataFrame, lis
         Rows in the :data:`COLUMNS` layout, and the problems (file, line, column, hint).
     """
     path = Path(path)
-    header, data, header_line = _read_table(path)
+    try:
+        header, data, header_line = _read_table(path)
+    except InputError as exc:
+        return _as_frame([]), [exc]
+    except (OSError, UnicodeDecodeError, ValueError, KeyError) as exc:  # unreadable file
+        return _as_frame([]), [InputError(f"cannot read the file: {exc}", path=path,
+                                          hint="save it again as UTF-8 CSV or .xlsx")]
     problems: list[InputError] = []
     missing = [c for c in REQUIRED if c not in header]
     unknown = [c for c in header if c not in REQUIRED + OPTIONAL]

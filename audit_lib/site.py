@@ -10,6 +10,7 @@ from an invalid site.
 from __future__ import annotations
 
 import datetime as dt
+import re
 import shutil
 from dataclasses import dataclass, field
 from os import PathLike
@@ -152,7 +153,8 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        line = getattr(exc, "lineno", None)
+        match = re.search(r"at line (\d+)", str(exc))
+        line = getattr(exc, "lineno", None) or (int(match.group(1)) if match else None)
         return None, [InputError(f"not valid TOML: {exc}", path=toml_path, line=line,
                                  hint="check quotes, brackets and '=' on that line")]
     lines = locate_keys(text)
@@ -169,11 +171,7 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     problems += _spectrum_problems(checked, root, toml_path, lines)
     frames = []
     for file in readings_files(root / "readings"):
-        try:
-            frame, found = read_readings_with_problems(file)
-        except (ValueError, OSError) as exc:  # unreadable spreadsheet, bad encoding
-            problems.append(InputError(f"cannot read readings: {exc}", path=file))
-            continue
+        frame, found = read_readings_with_problems(file)
         problems += found
         frames.append(frame)
     readings = pd.concat(frames, ignore_index=True) if frames else read_readings_empty()

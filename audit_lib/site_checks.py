@@ -146,9 +146,11 @@ def schema_problems(exc, path: Path, lines: dict[str, int]) -> list[InputError]:
         message = error["msg"].removeprefix("Value error, ")
         hint = _hint(error, loc)
         keyed = _KEYED.match(message)
-        if keyed:  # raised for one key by a record-level validator: "[key] message || hint"
+        if keyed:  # raised for one key by a record-level validator: "[key] message"
             field = f"{field}.{keyed.group(1)}" if field else keyed.group(1)
-            message, _, hint = keyed.group(2).partition(" || ")
+            message = keyed.group(2)
+        if " || " in message:  # our validators write "message || hint"
+            message, _, hint = message.partition(" || ")
             hint = hint or None
         if error["type"] == "string_pattern_mismatch" and ID_PATTERN in str(error.get("ctx")):
             message = f"{error.get('input')!r} is not a safe id"

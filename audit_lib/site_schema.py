@@ -128,7 +128,7 @@ class SiteInfo(Record):
             ZoneInfo(value)
         except (ZoneInfoNotFoundError, ValueError):
             raise ValueError(
-                f"unknown time zone {value!r}; use an IANA name such as "
+                f"unknown time zone {value!r} || use an IANA name such as "
                 "'Europe/London' or 'UTC'"
             ) from None
         return value
