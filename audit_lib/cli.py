@@ -109,14 +109,18 @@ def _add_import_parser(subparsers) -> None:
     p.add_argument("site", help="the site folder (holding site.toml)")
     p.add_argument("files", nargs="*", help="readings files (default: every file in SITE/readings)")
     p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
+    p.add_argument("--replace", action="store_true",
+                   help="a corrected file replaces the readings of its earlier import")
     p.set_defaults(handler=_run_import)
 
 
 def _run_import(args) -> int:
     from audit_lib.forecast import import_site_readings
 
-    for s in import_site_readings(args.site, args.files, db_path=args.db):
+    for s in import_site_readings(args.site, args.files, db_path=args.db, replace=args.replace):
         state = "already imported" if s.already_imported else f"{s.rows_added} added"
+        if s.rows_removed:
+            state += f", {s.rows_removed} of the earlier import removed"
         print(f"{s.source_file}: {s.rows_in_input} readings, {state}, "
               f"{s.rows_already_stored} already stored")
     return 0

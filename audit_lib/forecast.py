@@ -93,7 +93,8 @@ def sync_lamp_installs(site, db_path: str | PathLike) -> int:
     return history.record_lamp_installs(db_path, rows)
 
 
-def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, today=None):
+def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, today=None,
+                         replace: bool = False):
     """Import a site's lamp installs and readings into its history database.
 
     Parameters
@@ -109,6 +110,9 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
         The database; default ``SITE/history.sqlite``.
     today : datetime.date, optional
         Day used for the "date in the future" check.
+    replace : bool
+        Each file replaces the readings of its earlier imports (same file name), see
+        :func:`audit_lib.history.import_readings`.
 
     Returns
     -------
@@ -134,7 +138,7 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
         if problems:
             raise InputErrors(problems)
     sync_lamp_installs(site, db_path)
-    return [history.import_readings(db_path, table, source_file=file.name)
+    return [history.import_readings(db_path, table, source_file=file.name, replace=replace)
             for file, table in zip(files, tables, strict=True)]
 
 

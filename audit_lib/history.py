@@ -153,6 +153,8 @@ class ImportSummary:
         Readings skipped because an identical reading is stored already [-].
     already_imported : bool
         True if this exact content had been imported before (nothing was done).
+    rows_removed : int
+        Readings of an earlier import of the same file removed (``replace=True``) [-].
     """
 
     source_file: str
@@ -160,6 +162,7 @@ class ImportSummary:
     rows_added: int
     rows_already_stored: int
     already_imported: bool
+    rows_removed: int = 0
 
 
 def _natural_key(date, enclosure, lamp, position, x_m, y_m, z_m, distance_m, quantity,
@@ -318,7 +321,7 @@ def _check_row(row) -> tuple:
 
 
 def import_readings(db_path: str | PathLike, readings: pd.DataFrame, *,
-                    source_file: str | None = None) -> ImportSummary:
+                    source_file: str | None = None, replace: bool = False) -> ImportSummary:
     """Import readings (the ``audit_lib.readings`` contract) into a site's history.
 
     Idempotent and transactional: identical readings are stored once, re-importing the
@@ -335,6 +338,11 @@ def import_readings(db_path: str | PathLike, readings: pd.DataFrame, *,
         ``source_file``, ``source_line``); missing optional columns count as empty.
     source_file : str, optional
         Name recorded for the import; defaults to the distinct ``source_file`` values.
+    replace : bool
+        First remove the readings stored by earlier imports under the same
+        ``source_file`` name (a corrected file replaces its old version, in the same
+        transaction). Without it, a changed value is stored beside the old one. A reading
+        that an earlier import of *another* file also held is removed with this file's.
 
     Returns
     -------
@@ -367,6 +375,12 @@ def import_readings(db_path: str | PathLike, readings: pd.DataFrame, *,
                 (digest, source_file, _now_utc()),
             )
             import_id = cur.lastrowid
+            removed = 0
+            if replace:
+                old = "SELECT id FROM imports WHERE source_file = ? AND id <> ?"
+                removed = conn.execute(f"DELETE FROM readings WHERE import_id IN ({old})",
+                                       (source_file, import_id)).rowcount
+                conn.execute(f"DELETE FROM imports WHERE id IN ({old})", (source_file, import_id))
             added = 0
             for row in readings.to_dict("records"):
                 values = _check_row(row)
@@ -389,13 +403,17 @@ def import_readings(db_path: str | PathLike, readings: pd.DataFrame, *,
                                      "value") from None
                 added += cur.rowcount
             conn.execute("UPDATE imports SET rows_added = ? WHERE id = ?", (added, import_id))
+            if removed:
+                conn.execute("DELETE FROM audits WHERE id NOT IN"
+                             " (SELECT DISTINCT audit_id FROM readings)")
             conn.execute("COMMIT")
         except BaseException:
             conn.execute("ROLLBACK")
             raise
     finally:
         conn.close()
-    return ImportSummary(source_file, len(readings), added, len(readings) - added, False)
+    return ImportSummary(source_file, len(readings), added, len(readings) - added, False,
+                         removed)
 
 
 def record_lamp_install(db_path: str | PathLike, enclosure: str, lamp: str, installed_on,

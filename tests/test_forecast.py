@@ -105,3 +105,16 @@ def test_explicit_file_is_checked_against_the_site(site, tmp_path, capsys):
                      "2026-02-01,viv-1,tube-1,basking,uvi,2.0,UVI\n")
     assert cli.main(["import", str(site), str(extra)]) == 0
     assert "extra.csv: 1 readings, 1 added" in capsys.readouterr().out
+
+
+def test_import_replace_flag(site, capsys):
+    """`light-audit import --replace` swaps a corrected file for its earlier import
+    (audit_lib.history.import_readings, replace=True)."""
+    assert cli.main(["import", str(site)]) == 0
+    path = site / "readings" / "first-audit.csv"
+    path.write_text(path.read_text().replace(",0.3,UVI", ",0.4,UVI"))
+    capsys.readouterr()
+    assert cli.main(["import", str(site), "--replace"]) == 0
+    assert "8 removed" in capsys.readouterr().out.replace("of the earlier import ", "")
+    hide = history.read_lamp_readings(site / "history.sqlite", "viv-1", "tube-1")
+    assert sorted(set(hide.loc[hide["position"] == "hide", "value_si"])) == [0.4]

@@ -190,3 +190,25 @@ def test_failed_migration_leaves_old_schema(tmp_path, monkeypatch):
     tables = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table'")}
     conn.close()
     assert "imports" not in tables
+
+
+def test_replace_swaps_a_corrected_file(tmp_path):
+    """A corrected file imported with replace=True takes the place of its old version in
+    one transaction; without it the changed value is stored beside the old one (issue 5:
+    idempotent import; the natural key decides what is "the same reading")."""
+    db = tmp_path / "history.sqlite"
+    history.import_readings(db, make_readings(ROWS_2024), source_file="audit-2024.csv")
+    fixed = make_readings(ROWS_2024[:2] + [("2024-03-01", "forest-2", "tube-1", "basking", 1.9)])
+    plain = tmp_path / "plain.sqlite"
+    history.import_readings(plain, make_readings(ROWS_2024), source_file="audit-2024.csv")
+    assert history.import_readings(plain, fixed, source_file="audit-2024.csv").rows_added == 1
+    assert count(plain, "readings") == 4
+    summary = history.import_readings(db, fixed, source_file="audit-2024.csv", replace=True)
+    assert (summary.rows_removed, summary.rows_added) == (3, 3)
+    tube = history.read_lamp_readings(db, "forest-2", "tube-1")
+    assert tube["value_si"].tolist() == [1.9]
+    assert count(db, "imports") == 1
+    # the replaced version's content is no longer "already imported"
+    again = history.import_readings(db, make_readings(ROWS_2024), source_file="audit-2024.csv",
+                                    replace=True)
+    assert not again.already_imported and again.rows_removed == 3
