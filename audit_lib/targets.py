@@ -90,6 +90,8 @@ class SpeciesTarget:
         Optional note, e.g. on basking temperature.
     status : str
         How far the assignment is checked (e.g. "demo data - check", "site").
+    native_latitude_deg : float or None
+        A latitude inside the wild range, for drawing the sun's day there [deg].
     """
 
     id: str
@@ -99,6 +101,7 @@ class SpeciesTarget:
     uv_provision: str = "gradient"
     basking_note: str = ""
     status: str = "site"
+    native_latitude_deg: float | None = None
 
 
 @dataclass(frozen=True)
@@ -177,7 +180,8 @@ def read_species_table(path=None):
     ----------
     path : str or Path, optional
         A CSV with columns ``id, scientific_name, common_name, zone, uv_provision,
-        basking_note, status``; the shipped demo table (DEMO DATA, to be checked) by default.
+        basking_note, status`` and optionally ``native_latitude_deg``; the shipped demo table
+        (DEMO DATA, to be checked) by default.
 
     Returns
     -------
@@ -223,6 +227,7 @@ def species_targets(site_species=(), path=None) -> dict[str, SpeciesTarget]:
             uv_provision=row.uv_provision,
             basking_note=row.basking_note,
             status=row.status,
+            native_latitude_deg=_optional_float(getattr(row, "native_latitude_deg", None)),
         )
     for item in site_species:
         get = (
@@ -246,8 +251,16 @@ def species_targets(site_species=(), path=None) -> dict[str, SpeciesTarget]:
             uv_provision=provision,
             basking_note=str(get("basking_note", "") or ""),
             status="site",
+            native_latitude_deg=_optional_float(get("native_latitude_deg", None)),
         )
     return result
+
+
+def _optional_float(value) -> float | None:
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return None
+    number = float(value)
+    return None if math.isnan(number) else number
 
 
 # --- checks -------------------------------------------------------------------------------

@@ -23,6 +23,7 @@ from audit_lib.targets import (
     KEEPER_TIME_S,
     LIGHT_HOURS_RANGE,
     NO_DATA,
+    SHORT_UVB_TOLERANCE,
     SpeciesTarget,
     Zone,
     check_basking_max,
@@ -269,6 +270,7 @@ def assess_enclosure(
     light_hours_source: str = COMMON_PRACTICE,
     short_uvb_fraction=None,
     sun_short_uvb_fraction: float = 0.0,
+    short_uvb_tolerance: float = SHORT_UVB_TOLERANCE,
     keeper_limit_s=None,
     keeper_time_s: float = KEEPER_TIME_S,
     working_distance_m=None,
@@ -292,6 +294,8 @@ def assess_enclosure(
         Source of that range.
     sun_short_uvb_fraction : float
         Sunlight's 280-290 nm share of UVB [-].
+    short_uvb_tolerance : float
+        Share allowed above sunlight's (project default, not a published limit) [-].
     keeper_time_s : float
         Keeper's daily time at the working distance [s].
     working_distance_m : float, optional
@@ -312,7 +316,7 @@ def assess_enclosure(
         check_mean_exposure(mean_uvi, zone),
         check_refuge(refuge_share),
         check_light_hours(light_hours, light_hours_range, light_hours_source),
-        check_short_wave_share(short_uvb_fraction, sun_short_uvb_fraction),
+        check_short_wave_share(short_uvb_fraction, sun_short_uvb_fraction, short_uvb_tolerance),
         check_keeper_limit(
             keeper_limit_s, working_time_s=keeper_time_s, working_distance_m=working_distance_m
         ),

@@ -147,3 +147,11 @@ def test_light_hours_and_natural_range():
     c = check_light_hours(6.0, (lo, hi), "NOAA day length at 51.5 N")
     assert c.state == BELOW and c.status == "computed"
     assert check_light_hours(10.0).state == WITHIN and check_light_hours(14.01).state == ABOVE
+
+
+def test_species_native_latitude_optional():
+    """The demo table gives a latitude inside each wild range (demo data, from memory) so a
+    report can draw the sun's day there; site entries may leave it out."""
+    merged = species_targets([{"id": "y", "scientific_name": "Y", "zone": 2}])
+    assert all(-90 <= s.native_latitude_deg <= 90 for k, s in merged.items() if k != "y")
+    assert merged["y"].native_latitude_deg is None

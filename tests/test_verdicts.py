@@ -113,3 +113,13 @@ def test_emitter_action_and_future_replacement(zones, species):
 def test_overall_state_of_no_checks():
     """Nothing assessed is not a pass (project rule: a partial run is never a verdict)."""
     assert overall_state([])[0] == NO_DATA
+
+
+def test_short_wave_tolerance_is_a_site_setting(zones, species):
+    """The short-wave tolerance is a project default, not a published limit (ASTM G173
+    sunlight share ~4e-9 plus tolerance): a 2 % share fails at 0.1 % and passes at 5 %."""
+    kwargs = dict(basking_max_uvi=6.0, short_uvb_fraction=0.02, sun_short_uvb_fraction=4e-9)
+    strict = assess_enclosure("v", species["bearded-dragon"], zones[4], **kwargs)
+    loose = assess_enclosure("v", species["bearded-dragon"], zones[4],
+                             short_uvb_tolerance=0.05, **kwargs)
+    assert strict.checks[4].state == "above range" and loose.checks[4].state == WITHIN
