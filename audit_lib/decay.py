@@ -36,7 +36,7 @@ from audit_lib.errors import AuditWarning, InputError
 MIN_POINTS = 3
 
 #: States a lamp can be in, in the order a schedule sorts them.
-STATES = ("below target", "due soon", "ok", "no decay", "not enough data")
+STATES = ("below target", "due soon", "ok", "no decay", "not enough data", "no target")
 
 #: A forecast this close to today (or closer) counts as "due soon" [days].
 DUE_SOON_DAYS = 90
@@ -382,6 +382,101 @@ def _threshold_for(thresholds, enclosure: str, lamp: str) -> float:
     return math.nan
 
 
+@dataclass(frozen=True)
+class LampDecay:
+    """One lamp's decay analysis: points, fit, forecast and state.
+
+    Attributes
+    ----------
+    enclosure, lamp : str
+        Identifiers.
+    installed_on : pandas.Timestamp
+        Install day of the lamp in place.
+    daily_hours : float
+        Hours on per day [h].
+    hours_now : float
+        Lamp hours on the day of the analysis [h].
+    target : float
+        Lowest acceptable output (NaN if none was given) [unit].
+    points : pandas.DataFrame
+        From :func:`select_decay_points`.
+    fit : DecayFit
+        Both models fitted to the points.
+    forecast : Forecast or None
+        Crossing of the target (None without a fit or a target).
+    state : str
+        One of :data:`STATES`.
+    """
+
+    enclosure: str
+    lamp: str
+    installed_on: pd.Timestamp
+    daily_hours: float
+    hours_now: float
+    target: float
+    points: pd.DataFrame = field(repr=False)
+    fit: DecayFit = field(repr=False)
+    forecast: Forecast | None
+    state: str
+
+
+def analyse_lamp_decay(readings: pd.DataFrame, installs: pd.DataFrame, enclosure: str,
+                       lamp: str, target: float, *, today=None, quantity: str = "uvi"
+                       ) -> LampDecay | None:
+    """Fit one lamp's decay and forecast when it falls below ``target``.
+
+    Parameters
+    ----------
+    readings, installs : pandas.DataFrame
+        As for :func:`select_decay_points`.
+    enclosure, lamp : str
+        Identifiers.
+    target : float
+        Lowest acceptable output, e.g. the lower end of the zone's basking UV Index range;
+        NaN for none [unit].
+    today : date-like, optional
+        Day of the analysis (default: today).
+    quantity : str
+        Quantity fitted [-].
+
+    Returns
+    -------
+    LampDecay or None
+        None if no install of the lamp is in place on ``today``. The state is "below
+        target" if the fit at today's lamp hours or the latest reading is below target,
+        "due soon" if the forecast lies within :data:`DUE_SOON_DAYS`, else "ok"; or the
+        fit's "no decay" / "not enough data"; "no target" when no target is known.
+    """
+    from audit_lib.history import find_install, lamp_hours
+
+    today = pd.Timestamp.today().normalize() if today is None else pd.Timestamp(today)
+    install = find_install(installs, enclosure, lamp, today)
+    if install is None:
+        return None
+    installed_on = pd.Timestamp(install["installed_on"])
+    daily = float(install["daily_hours"])
+    points = select_decay_points(readings, installs, enclosure, lamp, quantity=quantity,
+                                 today=today)
+    fit = fit_decay(points["hours"], points["value"])
+    hours_now = lamp_hours(installed_on, daily, today)
+    state, forecast = fit.state, None
+    if not math.isfinite(target):
+        state = "no target"
+    elif fit.state == "fitted":
+        forecast = forecast_crossing(fit, target, installed_on=installed_on, daily_hours=daily)
+        if fit.best_fit.predict(hours_now) < target:
+            state = "below target"
+        elif pd.notna(forecast.date) and forecast.date <= today + pd.Timedelta(
+                days=DUE_SOON_DAYS):
+            state = "due soon"
+        else:
+            state = "ok"
+    if len(points) and points["value"].iloc[-1] < target:  # a low reading overrides the fit
+        state = "below target"
+    return LampDecay(enclosure, lamp, installed_on, daily, hours_now, float(target), points,
+                     fit, forecast, state)
+
+
 def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresholds, *,
                          today=None, quantity: str = "uvi") -> pd.DataFrame:
     """Site-wide lamp replacement schedule, one row per lamp in place today.
@@ -408,8 +503,6 @@ def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresho
         ``replace_by`` (forecast date), ``replace_by_early``, ``replace_by_late`` (68 %
         band), ``state`` (one of :data:`STATES`), sorted by state then date.
     """
-    from audit_lib.history import lamp_hours
-
     today = pd.Timestamp.today().normalize() if today is None else pd.Timestamp(today)
     current = installs[(installs["installed_on"] <= today)
                        & (installs["removed_on"].isna() | (installs["removed_on"] > today))]
@@ -421,39 +514,25 @@ def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresho
     rows = []
     for install in current.itertuples(index=False):
         enclosure, lamp = install.enclosure, install.lamp
-        target = _threshold_for(thresholds, enclosure, lamp)
-        points = select_decay_points(by_lamp.get((enclosure, lamp), empty),
-                                     installs_of[(enclosure, lamp)],
-                                     enclosure, lamp, quantity=quantity, today=today)
-        fit = fit_decay(points["hours"], points["value"])
-        hours_now = lamp_hours(install.installed_on, install.daily_hours, today)
-        row = {
+        result = analyse_lamp_decay(by_lamp.get((enclosure, lamp), empty),
+                                    installs_of[(enclosure, lamp)], enclosure, lamp,
+                                    _threshold_for(thresholds, enclosure, lamp), today=today,
+                                    quantity=quantity)
+        if result is None:
+            continue
+        fit, fc, points = result.fit, result.forecast, result.points
+        rows.append({
             "enclosure": enclosure, "lamp": lamp, "lamp_model": install.lamp_model,
-            "installed_on": install.installed_on, "hours_now": hours_now,
-            "points": len(points), "model": fit.best or "", "loss_per_1000h_pct": math.nan,
+            "installed_on": install.installed_on, "hours_now": result.hours_now,
+            "points": len(points), "model": fit.best or "",
+            "loss_per_1000h_pct": 100.0 * fit.best_fit.loss_per_1000h if fit.best else math.nan,
             "last_value": float(points["value"].iloc[-1]) if len(points) else math.nan,
-            "target_min": target, "replace_by": pd.NaT, "replace_by_early": pd.NaT,
-            "replace_by_late": pd.NaT, "state": fit.state,
-        }
-        if fit.state == "fitted" and math.isfinite(target):
-            best = fit.best_fit
-            row["loss_per_1000h_pct"] = 100.0 * best.loss_per_1000h
-            fc = forecast_crossing(fit, target, installed_on=install.installed_on,
-                                   daily_hours=install.daily_hours)
-            row.update(replace_by=fc.date, replace_by_early=fc.date_early,
-                       replace_by_late=fc.date_late)
-            if best.predict(hours_now) < target:
-                row["state"] = "below target"
-            elif pd.notna(fc.date) and fc.date <= today + pd.Timedelta(days=DUE_SOON_DAYS):
-                row["state"] = "due soon"
-            else:
-                row["state"] = "ok"
-        elif fit.state == "fitted":
-            row["state"] = "ok"
-            row["loss_per_1000h_pct"] = 100.0 * fit.best_fit.loss_per_1000h
-        if row["last_value"] < target:  # a measured value below target overrides the fit
-            row["state"] = "below target"
-        rows.append(row)
+            "target_min": result.target,
+            "replace_by": fc.date if fc else pd.NaT,
+            "replace_by_early": fc.date_early if fc else pd.NaT,
+            "replace_by_late": fc.date_late if fc else pd.NaT,
+            "state": result.state,
+        })
     columns = ["enclosure", "lamp", "lamp_model", "installed_on", "hours_now", "points",
                "model", "loss_per_1000h_pct", "last_value", "target_min", "replace_by",
                "replace_by_early", "replace_by_late", "state"]

@@ -157,3 +157,19 @@ def test_exponential_fit_failure_falls_back_to_linear(monkeypatch):
     with pytest.warns(decay.DecayFitWarning, match="exponential decay fit did not converge"):
         fit = decay.fit_decay(HOURS, 3.0 - 1e-4 * HOURS)
     assert fit.best == "linear" and math.isinf(fit.fits["exponential"].aic)
+
+
+def test_analyse_lamp_decay_without_target_says_so():
+    """Without a target there is nothing to forecast against: state "no target", no
+    forecast, but the fit is still made (the loss per 1000 h is still known)."""
+    install = pd.Timestamp("2024-06-01")
+    rows = [(install + pd.Timedelta(days=d), "desert-1", "bar", "basking",
+             4.0 * math.exp(-2e-4 * 12 * d)) for d in (0, 60, 120, 180)]
+    installs = _installs([("desert-1", "bar", "2024-06-01", None, 12, "UVB LED bar 12x305nm")])
+    result = decay.analyse_lamp_decay(_readings(rows), installs, "desert-1", "bar", math.nan,
+                                      today="2025-01-01")
+    assert result.state == "no target" and result.forecast is None
+    assert result.fit.best == "exponential"
+    assert result.fit.best_fit.loss_per_1000h == pytest.approx(1 - math.exp(-0.2), rel=1e-6)
+    assert decay.analyse_lamp_decay(_readings(rows), installs, "desert-1", "bar", 2.9,
+                                    today="2024-01-01") is None  # not installed yet

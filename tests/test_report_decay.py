@@ -52,3 +52,25 @@ def test_figure_without_fit_says_so():
     assert "not enough data" in fig.axes[0].get_title()
     assert [line.get_label() for line in fig.axes[0].get_lines()] == ["readings"]
     plt.close(fig)
+
+
+def test_plot_lamp_decay_titles_the_state():
+    """The lamp figure carries enclosure, lamp and state (as computed by
+    audit_lib.decay.analyse_lamp_decay) in its title."""
+    import matplotlib.pyplot as plt
+
+    from audit_lib.report.decay import plot_lamp_decay
+
+    install = pd.Timestamp("2024-06-01")
+    readings = pd.DataFrame({
+        "date": [install + pd.Timedelta(days=d) for d in (0, 60, 120, 180)],
+        "enclosure": "desert-1", "lamp": "bar", "position": "basking", "quantity": "uvi",
+        "value_si": [4.0 * math.exp(-2e-4 * 12 * d) for d in (0, 60, 120, 180)]})
+    installs = pd.DataFrame({"enclosure": ["desert-1"], "lamp": ["bar"],
+                             "installed_on": [install], "removed_on": [pd.NaT],
+                             "daily_hours": [12.0], "lamp_model": ["UVB LED bar 12x305nm"]})
+    result = decay.analyse_lamp_decay(readings, installs, "desert-1", "bar", 2.9,
+                                      today="2025-01-01")
+    fig = plot_lamp_decay(result, today="2025-01-01")
+    assert fig.axes[0].get_title() == "desert-1 / bar: below target"
+    plt.close(fig)

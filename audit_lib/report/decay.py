@@ -91,3 +91,29 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
     ax.legend(fontsize=7, loc="lower left", framealpha=0.9)
     fig.autofmt_xdate()
     return fig
+
+
+def plot_lamp_decay(result, *, today=None, ax=None, unit_label: str = "UV Index [-]"):
+    """Plot a :class:`audit_lib.decay.LampDecay` (see :func:`plot_decay`).
+
+    Parameters
+    ----------
+    result : audit_lib.decay.LampDecay
+        From :func:`audit_lib.decay.analyse_lamp_decay`.
+    today : date-like, optional
+        Marks the day of the audit.
+    ax : matplotlib.axes.Axes, optional
+        Axes to draw into.
+    unit_label : str
+        Label of the value axis.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    target = result.target if math.isfinite(result.target) else None
+    return plot_decay(result.points, result.fit, installed_on=result.installed_on,
+                      daily_hours=result.daily_hours, threshold=target,
+                      forecast=result.forecast, today=today, ax=ax,
+                      title=f"{result.enclosure} / {result.lamp}: {result.state}",
+                      unit_label=unit_label)
