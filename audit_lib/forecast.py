@@ -88,8 +88,9 @@ def sync_lamp_installs(site, db_path: str | PathLike) -> int:
             hours = lamp.daily_hours
             if hours is None:
                 hours = schedule_daily_hours(site.schedule(lamp.schedule))
-            rows.append(dict(enclosure=enclosure.id, lamp=lamp.id, installed_on=lamp.installed,
-                             daily_hours=hours, lamp_model=lamp.model))
+            for installed_on in (*lamp.earlier_installs, lamp.installed):  # replacements
+                rows.append(dict(enclosure=enclosure.id, lamp=lamp.id, installed_on=installed_on,
+                                 daily_hours=hours, lamp_model=lamp.model))
     return history.record_lamp_installs(db_path, rows)
 
 
