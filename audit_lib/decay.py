@@ -374,6 +374,8 @@ def select_decay_points(readings: pd.DataFrame, installs: pd.DataFrame, enclosur
 
 
 def _threshold_for(thresholds, enclosure: str, lamp: str) -> float:
+    if thresholds is None:
+        return math.nan
     if isinstance(thresholds, (int, float)):
         return float(thresholds)
     for key in ((enclosure, lamp), enclosure):
