@@ -75,7 +75,9 @@ class TimeBudget:
     Attributes
     ----------
     shares : dict of str to float
-        Position or surface name to its share of the active day; the shares add up to 1 [-].
+        Position or surface name to its share of the active day [-]. The shares add up to
+        at most 1; the rest of the active day counts as time out of the UV (buried, in a
+        closed hide).
     active_from, active_to : str, optional
         Local clock times ``"HH:MM"`` of the animal's active day; by default the hours when
         any lamp is on. Outside it the animal is assumed in shelter with no UV.
@@ -101,11 +103,11 @@ class TimeBudget:
                     f"share {share!r} of {key!r} is outside 0..1", field=f"shares.{key}"
                 )
         total = float(sum(self.shares.values()))
-        if abs(total - 1.0) > 1e-6:
+        if total > 1.0 + 1e-6:
             raise InputError(
-                f"the shares add up to {total:g}, not 1",
+                f"the shares add up to {total:g}, more than 1",
                 field="shares",
-                hint="give every place the animal uses; shares are fractions",
+                hint="shares are fractions of the active day",
             )
         if (self.active_from is None) != (self.active_to is None):
             raise InputError("give both active_from and active_to, or neither", field="active_from")

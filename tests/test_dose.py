@@ -85,6 +85,15 @@ def test_time_budget_weights_positions():
     assert list(table.index) == ["basking", "hide"]
 
 
+def test_time_budget_remainder_is_out_of_the_uv():
+    """Shares below 1 leave the rest of the active day without UV (our stated rule): 0.5 of
+    10 h at UVI 2 gives 0.5 x 2 x 10 h x 0.9 SED/h = 9 SED (CIE S 007) and mean UVI 1."""
+    p = daily_profile(OnOffSchedule(on="08:00", off="18:00"))
+    animal, _ = integrate_time_budget(TimeBudget(shares={"a": 0.5}), {"a": 2.0}, p)
+    assert animal.sed == pytest.approx(9.0)
+    assert animal.mean_uvi_exposed == pytest.approx(1.0)
+
+
 def test_time_budget_active_window():
     """An explicit active window 10:00-14:00 counts only those 4 h (schedule 08-18)."""
     p = daily_profile(OnOffSchedule(on="08:00", off="18:00"))
@@ -95,8 +104,8 @@ def test_time_budget_active_window():
 
 def test_time_budget_errors():
     """Project convention: errors name the field and hint at the fix."""
-    with pytest.raises(InputError, match="shares: the shares add up to 0.9, not 1"):
-        TimeBudget(shares={"a": 0.5, "b": 0.4})
+    with pytest.raises(InputError, match="shares: the shares add up to 1.1, more than 1"):
+        TimeBudget(shares={"a": 0.5, "b": 0.6})
     p = daily_profile(OnOffSchedule())
     with pytest.raises(InputError, match=r"no UV Index for position\(s\) \['b'\]"):
         integrate_time_budget(TimeBudget(shares={"a": 0.5, "b": 0.5}), {"a": 1.0}, p)
