@@ -23,6 +23,8 @@ from audit_lib.targets import (
     KEEPER_TIME_S,
     LIGHT_HOURS_RANGE,
     NO_DATA,
+    REFUGE_MIN_SHARE,
+    REFUGE_UVI_MAX,
     SHORT_UVB_TOLERANCE,
     SpeciesTarget,
     Zone,
@@ -265,6 +267,8 @@ def assess_enclosure(
     basking_max_uvi=None,
     mean_uvi=None,
     refuge_share=None,
+    refuge_min_share: float = REFUGE_MIN_SHARE,
+    refuge_uvi_max: float = REFUGE_UVI_MAX,
     light_hours=None,
     light_hours_range=LIGHT_HOURS_RANGE,
     light_hours_source: str = COMMON_PRACTICE,
@@ -288,6 +292,9 @@ def assess_enclosure(
         Target ranges.
     basking_max_uvi, mean_uvi, refuge_share, light_hours, short_uvb_fraction, keeper_limit_s
         Figures for the checks (None: not enough data) [UVI, UVI, -, h, -, s].
+    refuge_min_share, refuge_uvi_max : float
+        Refuge target share of the floor and the UV Index at or below which a place counts
+        as refuge (project defaults, common practice) [-].
     light_hours_range : (float, float)
         Target hours of light [h].
     light_hours_source : str
@@ -314,7 +321,7 @@ def assess_enclosure(
     checks = (
         check_basking_max(basking_max_uvi, zone),
         check_mean_exposure(mean_uvi, zone),
-        check_refuge(refuge_share),
+        check_refuge(refuge_share, min_share=refuge_min_share, refuge_uvi_max=refuge_uvi_max),
         check_light_hours(light_hours, light_hours_range, light_hours_source),
         check_short_wave_share(short_uvb_fraction, sun_short_uvb_fraction, short_uvb_tolerance),
         check_keeper_limit(
