@@ -31,10 +31,23 @@ def _badge(state: str) -> str:
     return f'<span class="state {state_class(state)}">{escape(state)}</span>'
 
 
-def _num(value, digits: int = 2) -> str:
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "–" if value is None or math.isnan(value) else "no limit"
-    return f"{value:.{digits}f}"
+def _num(value, digits: int | None = None) -> str:
+    """A figure for a table: "–" when missing, "no limit" when infinite, else rounded."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "–"
+    value = float(value)
+    if math.isinf(value):
+        return "no limit"
+    if digits is not None:
+        return f"{value:.{digits}f}"
+    size = abs(value)
+    if size >= 100:
+        return f"{value:.0f}"
+    if size >= 10:
+        return f"{value:.1f}"
+    if size >= 0.1 or size == 0:
+        return f"{value:.2f}"
+    return f"{value:.2g}"
 
 
 def _finite(value):
@@ -176,7 +189,14 @@ def spectrum_table(audit) -> pd.DataFrame:
     keys = ["peak_nm", "fwhm_nm", "short_uvb_fraction", "vitd_to_erythemal_ratio",
             "sun_vitd_to_erythemal_ratio", "cct_k", "risk_group"]
     rows = {m: {k: v.get(k) for k in keys} for m, v in audit.spectra.items()}
-    return pd.DataFrame(rows).T if rows else pd.DataFrame({"note": ["no lamp spectra"]})
+    if not rows:
+        return pd.DataFrame({"note": ["no lamp spectra"]})
+    table = pd.DataFrame(rows).T
+    for k in keys[:-1]:
+        table[k] = pd.to_numeric(table[k], errors="coerce")
+    return table.round({"peak_nm": 1, "fwhm_nm": 1, "short_uvb_fraction": 4,
+                        "vitd_to_erythemal_ratio": 2, "sun_vitd_to_erythemal_ratio": 2,
+                        "cct_k": 0})
 
 
 def lamps_table(audit) -> pd.DataFrame:

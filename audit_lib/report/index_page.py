@@ -44,7 +44,7 @@ def _row(outcome) -> str:
     else:
         verdict = _badge(outcome.verdict)
         off = [c for c in outcome.checks if c.get("state") not in (None, "within range")]
-        notes = "; ".join(escape(f"{c.get('name')}: {c.get('reason', '')}") for c in off[:4])
+        notes = " ".join(escape(str(c.get("reason", ""))) for c in off[:4])
         if len(off) > 4:
             notes += f"; and {len(off) - 4} more"
     links = " · ".join(filter(None, (_link(outcome.report, "report"),
