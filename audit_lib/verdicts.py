@@ -105,18 +105,20 @@ def overall_state(checks) -> tuple[str, str]:
     """Overall state and reason from a set of checks.
 
     "needs attention" if any check is out of range; "not enough data" if the basking maximum
-    or the animal's mean is missing; otherwise "meets targets".
+    is missing; otherwise "meets targets", naming any check that lacked data.
     """
     out = [c for c in checks if c.state in (BELOW, ABOVE)]
     missing = [c for c in checks if c.state == NO_DATA]
     if out:
         names = "; ".join(f"{c.name} {c.state}" for c in out)
         return ATTENTION, f"{len(out)} of {len(checks)} checks are out of range: {names}."
-    core = {"basking UV Index maximum", "mean UV Index of the animal"}
-    if any(c.name in core for c in missing) or not checks:
-        return NO_DATA, "The basking maximum or the animal's mean UV Index is missing."
-    extra = f" ({len(missing)} could not be made for lack of data)" if missing else ""
-    return MEETS, f"All {len(checks) - len(missing)} checks made are within range{extra}."
+    if not checks or any(c.name == "basking UV Index maximum" for c in missing):
+        return NO_DATA, "The basking UV Index maximum is missing, so the zone cannot be judged."
+    names = ", ".join(c.name for c in missing)
+    extra = f" ({len(missing)} could not be made for lack of data: {names})" if missing else ""
+    made = len(checks) - len(missing)
+    lead = "The one check made is" if made == 1 else f"All {made} checks made are"
+    return MEETS, f"{lead} within range{extra}."
 
 
 def _mid(low, high):

@@ -123,3 +123,15 @@ def test_short_wave_tolerance_is_a_site_setting(zones, species):
     loose = assess_enclosure("v", species["bearded-dragon"], zones[4],
                              short_uvb_tolerance=0.05, **kwargs)
     assert strict.checks[4].state == "above range" and loose.checks[4].state == WITHIN
+
+
+def test_meets_targets_names_checks_without_data(zones, species):
+    """Readings alone (a basking UV Index meter reading, no time budget): the verdict can be
+    made and says which checks lacked data (project rule: verdicts carry reasons)."""
+    v = assess_enclosure("v", species["corn-snake"], zones[2], basking_max_uvi=2.0)
+    assert v.state == MEETS
+    assert v.reason.startswith("The one check made is within range (5 could not be made")
+    v = assess_enclosure("v", species["corn-snake"], zones[2], basking_max_uvi=2.0,
+                         light_hours=12.0)
+    assert v.reason.startswith("All 2 checks made are within range (4 could not be made")
+    assert "mean UV Index of the animal" in v.reason
