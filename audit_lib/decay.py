@@ -16,9 +16,11 @@ memory).
 
 The forecast is the day the fitted output falls below the caller's threshold (the lower
 end of the zone's target range) given the lamp's daily hours. Its uncertainty band comes
-from drawing parameters from the fit's covariance (a normal approximation, seeded, so the
-result is reproducible) and taking the 16th and 84th percentiles of the crossing hours
-(a 68 % band, "one sigma").
+from drawing parameters from the fit's covariance (seeded, so the result is reproducible)
+and taking the 16th and 84th percentiles of the crossing hours (a 68 % band, "one
+sigma"). When the covariance rests on the scatter about the fit (no reading uncertainties
+given), the draws follow a Student t distribution with the fit's degrees of freedom
+instead of a normal one, so three or four audits give an honestly wide band.
 """
 
 from __future__ import annotations
@@ -77,6 +79,11 @@ class ModelFit:
         Residual sum of squares [unit2].
     aic : float
         Akaike information criterion for least squares [-].
+    dof : int
+        Degrees of freedom left (points minus parameters) [-].
+    absolute_sigma : bool
+        True if the covariance rests on given reading uncertainties, False if on the
+        scatter about the fit.
     """
 
     model: str
@@ -85,6 +92,8 @@ class ModelFit:
     covariance: np.ndarray = field(repr=False)
     rss: float
     aic: float
+    dof: int = 0
+    absolute_sigma: bool = False
 
     def predict(self, hours) -> np.ndarray:
         """Fitted output at ``hours`` [h]."""
@@ -183,7 +192,8 @@ def _fit_one(model: str, hours: np.ndarray, values: np.ndarray, sigma) -> ModelF
     if not np.all(np.isfinite(cov)):
         warnings.warn(f"{model} decay fit gave no parameter uncertainty", DecayFitWarning,
                       stacklevel=3)
-    return ModelFit(model, tuple(float(p) for p in params), stderr, cov, rss, aic)
+    return ModelFit(model, tuple(float(p) for p in params), stderr, cov, rss, aic,
+                    n - len(params), sigma is not None)
 
 
 def fit_decay(hours, values, *, sigma=None) -> DecayFit:
@@ -304,7 +314,12 @@ def forecast_crossing(fit: DecayFit, threshold: float, *, installed_on, daily_ho
     cov = mf.covariance
     if np.all(np.isfinite(cov)):
         rng = np.random.default_rng(seed)
-        sample = rng.multivariate_normal(mf.params, cov, size=draws, check_valid="ignore")
+        sample = rng.multivariate_normal(np.zeros(2), cov, size=draws, check_valid="ignore")
+        if not mf.absolute_sigma and mf.dof > 0:
+            # variance estimated from the scatter: multivariate Student t with the fit's
+            # degrees of freedom (GUM, JCGM 100:2008 Annex G, from memory)
+            sample *= np.sqrt(mf.dof / rng.chisquare(mf.dof, size=draws))[:, None]
+        sample += np.asarray(mf.params)
         crossing = _crossing_hours(mf.model, sample, threshold)
         low, high = (float(v) for v in np.percentile(crossing, [16, 84]))
     else:

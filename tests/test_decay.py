@@ -61,7 +61,11 @@ def test_forecast_of_noise_free_exponential_is_analytic():
 def test_forecast_band_matches_delta_method_for_linear_model():
     """For the linear model h = (y0 - T) / b; first-order error propagation (delta method,
     JCGM 100:2008 GUM section 5.2, from memory) of the fit covariance gives a standard
-    deviation that the 16-84 % band of the parameter draws reproduces within 15 %."""
+    deviation; with the variance estimated from 8 points (6 degrees of freedom) the 68 %
+    half-width is that times Student's t quantile t(0.84, 6) (GUM Annex G, from memory;
+    quantile from scipy.stats.t). The parameter draws reproduce it within 15 %."""
+    from scipy.stats import t as student_t
+
     rng = np.random.default_rng(3)
     hours = np.linspace(0, 6000, 8)
     values = 3.0 - 1.5e-4 * hours + 0.03 * rng.standard_normal(hours.size)
@@ -72,7 +76,9 @@ def test_forecast_band_matches_delta_method_for_linear_model():
     (y0, b), cov = mf.params, mf.covariance
     grad = np.array([1 / b, -(y0 - 2.0) / b**2])
     sd = math.sqrt(grad @ cov @ grad)
-    assert (fc.hours_high - fc.hours_low) / 2 == pytest.approx(sd, rel=0.15)
+    assert mf.dof == 6
+    half_width = sd * student_t.ppf(0.84, 6)
+    assert (fc.hours_high - fc.hours_low) / 2 == pytest.approx(half_width, rel=0.15)
     assert fc.date_early <= fc.date <= fc.date_late
 
 
@@ -173,3 +179,24 @@ def test_analyse_lamp_decay_without_target_says_so():
     assert result.fit.best_fit.loss_per_1000h == pytest.approx(1 - math.exp(-0.2), rel=1e-6)
     assert decay.analyse_lamp_decay(_readings(rows), installs, "desert-1", "bar", 2.9,
                                     today="2024-01-01") is None  # not installed yet
+
+
+def test_three_audits_give_a_student_t_band():
+    """Three audits leave one degree of freedom: the 68 % half-width is the delta-method
+    standard deviation times t(0.84, 1) = 1.82 (Student's t, scipy.stats.t; GUM Annex G,
+    from memory), almost twice the normal-theory width."""
+    from scipy.stats import t as student_t
+
+    hours = np.array([100.0, 4500, 8900])
+    values = 3.0 - 1.5e-4 * hours + np.array([0.01, -0.02, 0.01])
+    fit = decay.fit_decay(hours, values)
+    mf = fit.fits["linear"]
+    assert mf.dof == 1
+    fc = decay.forecast_crossing(fit, 2.0, installed_on="2024-01-01", daily_hours=12,
+                                 model="linear", draws=40000)
+    (y0, b), cov = mf.params, mf.covariance
+    grad = np.array([1 / b, -(y0 - 2.0) / b**2])
+    sd = math.sqrt(grad @ cov @ grad)
+    assert student_t.ppf(0.84, 1) == pytest.approx(1.82, abs=0.01)
+    half_width = (fc.hours_high - fc.hours_low) / 2
+    assert half_width == pytest.approx(sd * student_t.ppf(0.84, 1), rel=0.2)

@@ -27,7 +27,8 @@ def test_figure_shows_readings_target_and_analytic_forecast(tmp_path):
                      forecast=fc, today="2025-01-01", title="desert-1 / basking-bar")
     ax = fig.axes[0]
     labels = [line.get_label() for line in ax.get_lines()]
-    assert labels[:3] == ["readings", "exponential fit (better)", "linear fit"]
+    assert labels[0] == "readings" and labels[2] == "linear fit"
+    assert labels[1].startswith("exponential fit (better, ΔAIC")
     target = ax.get_lines()[3]
     assert set(target.get_ydata()) == {2.9}
     crossing = pd.Timestamp("2024-01-01") + pd.Timedelta(

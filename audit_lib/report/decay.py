@@ -10,7 +10,7 @@ import pandas as pd
 from audit_lib.report.style import PALETTE, new_figure
 
 #: Longest stretch drawn past the last reading when a forecast lies far ahead [days].
-MAX_FUTURE_DAYS = 3 * 365
+MAX_FUTURE_DAYS = 6 * 365
 
 
 def _dates(installed_on, daily_hours: float, hours) -> pd.DatetimeIndex:
@@ -59,19 +59,22 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
     values = points["value"].to_numpy(float)
     ax.plot(_dates(installed_on, daily_hours, hours), values, "o", color=PALETTE["black"],
             label="readings", zorder=3)
-    end_h = hours.max() if hours.size else 0.0
+    last_h = hours.max() if hours.size else 0.0
+    end_h = last_h
     if forecast is not None and math.isfinite(forecast.hours):
-        end_h = max(end_h, forecast.hours_high if math.isfinite(forecast.hours_high)
-                    else forecast.hours)
-    end_h = min(end_h * 1.1 + daily_hours * 30, (hours.max() if hours.size else 0.0)
-                + MAX_FUTURE_DAYS * daily_hours)
+        end_h = max(end_h, forecast.hours)
+    end_h = min(end_h * 1.05 + daily_hours * 60, last_h + MAX_FUTURE_DAYS * daily_hours)
     grid = np.linspace(0.0, end_h, 300)
     styles = {"exponential": PALETTE["blue"], "linear": PALETTE["bluish green"]}
     for name, model in fit.fits.items():
         best = name == fit.best
+        label = f"{name} fit"
+        if best:  # AIC differences under about 2: no real preference (Burnham & Anderson)
+            label += (f" (better, ΔAIC {fit.delta_aic:.1f})" if fit.delta_aic >= 2
+                      else f" (used; ΔAIC {fit.delta_aic:.1f}: no clear preference)")
         ax.plot(_dates(installed_on, daily_hours, grid), model.predict(grid),
                 color=styles[name], ls="-" if best else "--", lw=1.8 if best else 1.0,
-                label=f"{name} fit" + (" (better)" if best else ""))
+                label=label)
     if threshold is not None:
         ax.axhline(threshold, color=PALETTE["vermillion"], lw=1.2, ls=":",
                    label=f"target minimum {threshold:g}")
