@@ -55,3 +55,19 @@ def test_monthly_figure_has_twelve_bars():
     assert len(heights) == 12
     assert heights == pytest.approx([8 * 0.9] * 12)
     plt.close(ax.figure)
+
+
+def test_dataframe_columns_become_curves():
+    """A table of UV Index columns indexed by hour draws one line per column (pandas
+    DataFrame semantics); without a zone the sun is drawn unscaled (Madronich 2007 values)."""
+    import matplotlib.pyplot as plt
+    import pandas as pd
+
+    sun = clear_sky_uvi_day(0.0, 0.0, dt.date(2026, 3, 20), step_s=600.0)
+    table = pd.DataFrame({"basking": np.linspace(0, 3, 144), "floor": np.linspace(0, 1, 144)},
+                         index=pd.Index(sun["time_h"].to_numpy(), name="time_h"))
+    ax = plot_daily_uvi(table, sun=sun)
+    labels = [ln.get_label() for ln in ax.get_lines()]
+    assert labels == ["sun, clear sky", "basking", "floor"]
+    assert np.max(ax.get_lines()[0].get_ydata()) == pytest.approx(sun["uvi"].max())
+    plt.close(ax.figure)

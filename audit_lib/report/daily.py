@@ -41,9 +41,9 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
 
     Parameters
     ----------
-    curves : pandas.Series or dict of str to pandas.Series
+    curves : pandas.Series, dict of str to pandas.Series, or pandas.DataFrame
         UV Index [-] indexed by local clock hours (e.g. :func:`audit_lib.dose.uvi_series`);
-        several named curves (basking spot, animal, refuge) share the axes.
+        several named curves (basking spot, animal, refuge) or columns share the axes.
     zone : audit_lib.targets.Zone, optional
         Shades the mean-exposure range and the maximum range, labelled with their status.
     sun : pandas.DataFrame, optional
@@ -63,7 +63,9 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
     """
     if ax is None:
         _, ax = new_figure(9.0, 4.0)
-    if not isinstance(curves, dict):
+    if hasattr(curves, "columns"):  # a DataFrame: one curve per column
+        curves = {str(c): curves[c] for c in curves.columns}
+    elif not isinstance(curves, dict):
         curves = {getattr(curves, "name", None) or "UV Index": curves}
     top = 0.0
     if zone is not None:
