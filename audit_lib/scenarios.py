@@ -140,6 +140,15 @@ class PlanConfig:
                            tuple(sorted({int(n) for n in self.failed_emitters})))
         if (self.on is None) != (self.off is None):
             raise InputError("give both own light times (on and off) or neither", field="on")
+        if self.on is not None:
+            from audit_lib.photoperiod import parse_clock
+
+            for key in ("on", "off"):
+                value = getattr(self, key)
+                if not re.match(r"^([01]\d|2[0-3]):[0-5]\d$", str(value)):
+                    raise InputError(f"light time {value!r} is not a clock time", field=key,
+                                     hint="write it as HH:MM, e.g. 07:30")
+                parse_clock(value, field_name=key)
         if not 0.0 <= float(self.output_share) <= 2.0:
             raise InputError(f"output share {self.output_share!r} is outside 0-2",
                              field="output_share", hint="1 is a new lamp at rated output")
