@@ -92,9 +92,11 @@ def emitter_contributions(
     ev = evaluate_points(enclosure, pts, (quantity,), per_source=(quantity,))
     rows = ev.contributions[quantity]
     units = tuple(dict.fromkeys(ev.labels))
-    index = {u: i for i, u in enumerate(units)}
-    matrix = np.zeros((len(units), rows.shape[1]))
-    np.add.at(matrix, [index[lab] for lab in ev.labels], rows)
+    if len(units) == len(ev.labels):  # one source per unit (LED arrays): rows as they are
+        matrix = rows
+    else:
+        labels = np.array(ev.labels, dtype=object)
+        matrix = np.vstack([rows[labels == u].sum(axis=0) for u in units])
     return EmitterContributions(s.name, quantity, units, matrix, x, y)
 
 
@@ -363,9 +365,11 @@ def monte_carlo_coverage(
     """Monte Carlo of random unit failures on precomputed contributions.
 
     Each trial draws every unit out independently with its probability; the surface
-    map is ``total - out @ C`` (float32, in batches of trials). Points that stay inside
-    (or outside) the range even after losing their k largest contributions, k being the
-    most units out in any trial of the batch, are decided without the product.
+    map is ``total - out @ C`` (float32), evaluated as the sum of the rows of the units
+    that are out, in batches of trials with the same number k of units out. Points that
+    stay inside (or outside) the range even after losing their k largest contributions
+    are decided without it; trials with nothing out need no work at all. Exact: the
+    pruning only skips points whose answer cannot change.
 
     Parameters
     ----------
@@ -405,23 +409,42 @@ def monte_carlo_coverage(
         [np.zeros(total.size), np.cumsum(-np.sort(-contrib.matrix, axis=0), axis=0)]
     )
     c32 = np.ascontiguousarray(contrib.matrix, dtype=np.float32)
+    total32 = total.astype(np.float32)
+    out = rng.random((n_trials, n)) < p
+    n_failed = out.sum(axis=1)
     cov = np.empty(n_trials)
-    n_failed = np.empty(n_trials, int)
     n_points = total.size
-    for start in range(0, n_trials, batch_size):
-        stop = min(start + batch_size, n_trials)
-        out = rng.random((stop - start, n)) < p
-        k = out.sum(axis=1)
-        n_failed[start:stop] = k
-        loss = worst_loss[k.max()]
+    for k in np.unique(n_failed):  # same k, same bound: group the trials by it
+        trials = np.nonzero(n_failed == k)[0]
+        loss = worst_loss[k]
         always = (total <= hi) & (total - loss >= lo)
         never = (total < lo) | (total - loss > hi)
         open_ = ~(always | never)
-        values = total[open_].astype(np.float32) - out.astype(np.float32) @ c32[:, open_]
-        inside = values >= lo
-        if np.isfinite(hi):
-            inside &= values <= hi
-        cov[start:stop] = (np.count_nonzero(always) + inside.sum(axis=1)) / n_points
+        n_always = np.count_nonzero(always)
+        if not open_.any():
+            cov[trials] = n_always / n_points
+            continue
+        c_open, t_open = c32[:, open_], total32[open_]
+        # every trial of this group has exactly k units out: subtract k gathered rows
+        # (or add the n - k working ones), no dense product over all units
+        use_out = k <= n - k
+        for start in range(0, trials.size, batch_size):
+            ids = trials[start : start + batch_size]
+            chosen = out[ids] if use_out else ~out[ids]
+            picked = np.nonzero(chosen)[1].reshape(ids.size, -1)
+            values = np.broadcast_to(t_open, (ids.size, t_open.size)).copy()
+            if not use_out:
+                values[:] = 0.0
+            for j in range(picked.shape[1]):
+                rows = c_open[picked[:, j]]
+                if use_out:
+                    values -= rows
+                else:
+                    values += rows
+            inside = values >= lo
+            if np.isfinite(hi):
+                inside &= values <= hi
+            cov[ids] = (n_always + inside.sum(axis=1)) / n_points
     base = float(coverage(contrib.total, uvi_range))
     return MonteCarloResult(
         contrib.surface,

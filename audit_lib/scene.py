@@ -132,8 +132,10 @@ def evaluate_points(
             hint="labels look like '<lamp id>/<emitter name>' for LED arrays",
         )
     for placed, g in groups:
-        gf = group_factors(g, pts, normal, planes)
         alive = np.array([lab not in failed for lab in g.labels], float)
+        gf = group_factors(g, pts, normal, planes, alive, keep=bool(per_source))
+        if gf.factor is None and any(m is not True and m is not False for m in gf.screen_masks):
+            gf = group_factors(g, pts, normal, planes, alive, keep=True)
         q_vec = np.array([g.quantities.get(q, np.nan) for q in quantities])
         full = np.ones(len(quantities))
         partial = []
@@ -145,7 +147,7 @@ def evaluate_points(
                 full *= t
             else:
                 partial.append((mask, t))
-        base = alive @ gf.factor
+        base = gf.alive_sum
         for k, q in enumerate(quantities):
             if partial:
                 f = np.ones_like(gf.factor)
@@ -162,7 +164,7 @@ def evaluate_points(
         labels.extend(g.labels)
         w_ref = np.nan_to_num(q_vec[0], nan=1.0) or 1.0
         num_cos += w_ref * gf.factor_cos
-        den += w_ref * gf.factor.sum(axis=0)
+        den += w_ref * gf.total
         if g.valid_range_m is not None:
             lit = gf.factor > 0
             if lit.any():

@@ -91,7 +91,8 @@ def test_led_pattern_cos_m_off_axis(tilt):
         r = np.linalg.norm(d)
         cos_t, cos_i = axis @ d / r, 0.5 / r
         expected = i0 * cos_t**m * cos_i / r**2
-        assert _at(enc, x, y, 0.0) == pytest.approx(expected, rel=1e-10)
+        # straight down runs in single precision (see geometry), tilted in double
+        assert _at(enc, x, y, 0.0) == pytest.approx(expected, rel=1e-6 if tilt == 0 else 1e-10)
 
 
 def test_finite_line_source_against_handbook_formula():
@@ -171,8 +172,8 @@ def test_symmetric_array_gives_symmetric_map():
     enc = Enclosure("box", 1.2, 0.6, 0.6, lamps=(PlacedLamp(bar, 0.6, 0.3, 0.55),))
     m = compute_maps(enc, shape=(30, 60))["floor"]
     for v in m.values.values():
-        np.testing.assert_allclose(v, v[:, ::-1], rtol=1e-10)
-        np.testing.assert_allclose(v, v[::-1, :], rtol=1e-10)
+        np.testing.assert_allclose(v, v[:, ::-1], rtol=1e-6)  # single-precision fast path
+        np.testing.assert_allclose(v, v[::-1, :], rtol=1e-6)
 
 
 def test_mesh_and_screens():
