@@ -136,6 +136,8 @@ def _add_forecast_parser(subparsers) -> None:
     p.add_argument("--target-uvi", type=float,
                    help="one basking UV Index threshold for all lamps (default: zone ranges)")
     p.add_argument("--csv", help="also write the schedule to this CSV file")
+    p.add_argument("--raw", action="store_true",
+                   help="fit raw meter readings (no spectral mismatch correction)")
     p.set_defaults(handler=_run_forecast)
 
 
@@ -146,7 +148,7 @@ def _run_forecast(args) -> int:
 
     today = dt.date.fromisoformat(args.date) if args.date else None
     table = site_replacement_schedule(args.site, db_path=args.db, today=today,
-                                      target_uvi=args.target_uvi)
+                                      target_uvi=args.target_uvi, correct_meters=not args.raw)
     print(format_schedule(table))
     if args.csv:
         table.to_csv(args.csv, index=False, date_format="%Y-%m-%d")

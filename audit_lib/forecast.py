@@ -176,7 +176,8 @@ def basking_uvi_targets(site) -> dict[str, float]:
 
 
 def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=None,
-                              target_uvi: float | None = None) -> pd.DataFrame:
+                              target_uvi: float | None = None,
+                              correct_meters: bool = True) -> pd.DataFrame:
     """Replacement schedule of every lamp of a site, from its history database.
 
     Parameters
@@ -189,11 +190,15 @@ def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=
         Day of the schedule (default: today).
     target_uvi : float, optional
         One basking UV Index threshold for every lamp, instead of the zone ranges [-].
+    correct_meters : bool
+        Fit UV Index readings corrected for meter spectral mismatch where the site gives
+        the meter's response (:mod:`audit_lib.meter_corrections`); raw readings otherwise.
 
     Returns
     -------
     pandas.DataFrame
-        :func:`audit_lib.decay.replacement_schedule` columns.
+        :func:`audit_lib.decay.replacement_schedule` columns plus ``meter_corrected``
+        (True if that lamp's readings were corrected).
     """
     from audit_lib.site import load_site
 
@@ -204,9 +209,25 @@ def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=
                          hint=f"run 'light-audit import {site_path}' first")
     sync_lamp_installs(site, db_path)
     thresholds = basking_uvi_targets(site) if target_uvi is None else float(target_uvi)
-    return decay.replacement_schedule(history.read_all_readings(db_path),
-                                      history.read_lamp_installs(db_path), thresholds,
-                                      today=today)
+    readings = history.read_all_readings(db_path)
+    corrected_lamps: set = set()
+    if correct_meters:
+        from audit_lib.meter_corrections import site_meter_corrections
+        from audit_lib.meters import correct_readings
+
+        factors = {(r.meter, r.enclosure, r.lamp): r.correction_factor
+                   for r in site_meter_corrections(site).itertuples(index=False)}
+        if factors:
+            fixed = correct_readings(readings, factors)
+            use = fixed["value_si_corrected"].notna()
+            readings.loc[use, "value_si"] = fixed.loc[use, "value_si_corrected"]
+            corrected_lamps = set(zip(readings.loc[use, "enclosure"], readings.loc[use, "lamp"],
+                                      strict=True))
+    table = decay.replacement_schedule(readings, history.read_lamp_installs(db_path),
+                                       thresholds, today=today)
+    table["meter_corrected"] = [(e, lp) in corrected_lamps
+                                for e, lp in zip(table["enclosure"], table["lamp"], strict=True)]
+    return table
 
 
 def format_schedule(table: pd.DataFrame) -> str:
@@ -228,8 +249,13 @@ def format_schedule(table: pd.DataFrame) -> str:
             f"{date(r.replace_by_early)} .. {date(r.replace_by_late)}"
         rows.append((r.enclosure, r.lamp, r.model or "-", number(r.loss_per_1000h_pct, ".1f")
                      + ("%" if not pd.isna(r.loss_per_1000h_pct) else ""),
-                     number(r.last_value, ".2f"), number(r.target_min, ".1f"),
+                     number(r.last_value, ".2f")
+                     + ("*" if getattr(r, "meter_corrected", False) else ""),
+                     number(r.target_min, ".1f"),
                      date(r.replace_by), band, r.state))
     widths = [max(len(str(row[i])) for row in rows) for i in range(len(rows[0]))]
-    return "\n".join("  ".join(str(c).ljust(w) for c, w in zip(row, widths, strict=True)).rstrip()
+    text = "\n".join("  ".join(str(c).ljust(w) for c, w in zip(row, widths, strict=True)).rstrip()
                      for row in rows)
+    if "meter_corrected" in table.columns and table["meter_corrected"].any():
+        text += "\n* corrected for the meter's spectral mismatch (see docs/history.md)"
+    return text

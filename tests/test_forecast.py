@@ -118,3 +118,33 @@ def test_import_replace_flag(site, capsys):
     assert "8 removed" in capsys.readouterr().out.replace("of the earlier import ", "")
     hide = history.read_lamp_readings(site / "history.sqlite", "viv-1", "tube-1")
     assert sorted(set(hide.loc[hide["position"] == "hide", "value_si"])) == [0.4]
+
+
+def test_forecast_uses_mismatch_corrected_readings(site, capsys):
+    """With a meter response in the site, the fit uses corrected = F* x raw readings
+    (CIE S 017:2020 17-25-115), marked with '*'; --raw fits the readings as taken."""
+    import numpy as np
+
+    from audit_lib.meter_corrections import site_meter_corrections
+    from audit_lib.site import load_site
+
+    wl = np.arange(250, 401)
+    rows = "\n".join(f"{w},{1.0 if w >= 280 else 0.0}" for w in wl)
+    (site / "spectra" / "uvi-meter-response.csv").write_text(
+        "wavelength_nm,relative_response\n" + rows + "\n")
+    toml = site / "site.toml"
+    toml.write_text(toml.read_text().replace('# spectral_response = "spectra/',
+                                             'spectral_response = "spectra/'))
+    factor = site_meter_corrections(load_site(site)).loc[0, "correction_factor"]
+    assert abs(factor - 1) > 0.05
+    assert cli.main(["import", str(site)]) == 0
+    for flag, scale, mark in (([], factor, "*"), (["--raw"], 1.0, "")):
+        out_csv = site / "schedule.csv"
+        assert cli.main(["forecast", str(site), "--date", "2026-12-01", "--csv", str(out_csv),
+                         *flag]) == 0
+        out = capsys.readouterr().out
+        table = pd.read_csv(out_csv)
+        raw_last = 4.0 * math.exp(-K_PER_H * 12 * DAYS[-1])
+        assert table.loc[0, "last_value"] == pytest.approx(scale * raw_last, rel=1e-4)
+        assert bool(table.loc[0, "meter_corrected"]) == (mark == "*")
+        assert (f"{scale * raw_last:.2f}*" in out) == (mark == "*")
