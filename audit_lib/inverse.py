@@ -177,3 +177,149 @@ def _bands(heights: np.ndarray, good: np.ndarray) -> list[tuple[float, float]]:
     if start is not None:
         bands.append((float(start), float(last)))
     return bands
+
+
+@dataclass(frozen=True)
+class CountAnswer:
+    """Answer of :func:`emitter_count_for_target`.
+
+    Parameters
+    ----------
+    lamp, emitter_type, surface, statistic : str
+        What was varied and measured.
+    uvi_range : tuple of float
+        Target (lo, hi) [-].
+    counts : numpy.ndarray
+        Emitter counts scanned.
+    uvi : numpy.ndarray
+        The statistic for each count [-].
+    achievable : bool
+        Whether any count gives a value inside the range.
+    suggested_count : int
+        Smallest good count; if none, the count that comes closest.
+    message : str
+        One sentence for the report.
+    """
+
+    lamp: str
+    emitter_type: str
+    surface: str
+    statistic: str
+    uvi_range: tuple
+    counts: np.ndarray
+    uvi: np.ndarray
+    achievable: bool
+    suggested_count: int
+    message: str
+
+
+def emitter_count_for_target(
+    enclosure: Enclosure,
+    lamp: str,
+    emitter_type: str,
+    surface: str,
+    uvi_range,
+    statistic: str = "max",
+    max_count: int | None = None,
+    spacing_m: float = 0.02,
+) -> CountAnswer:
+    """Number of emitters of one type in an LED array that brings a surface into range.
+
+    The emitters of ``emitter_type`` are replaced by N emitters spread evenly along the
+    x extent the type occupies now, in one row at their mean y (other types stay);
+    N runs from 1 to ``max_count`` (default four times the present count).
+
+    Parameters
+    ----------
+    enclosure : Enclosure
+        The scene.
+    lamp : str
+        Id of an LED-array lamp.
+    emitter_type : str
+        Emitter type whose count is varied.
+    surface : str
+        Surface name.
+    uvi_range : tuple of float
+        Target (lo, hi) [-].
+    statistic : str, optional
+        ``"max"`` or ``"mean"`` of the surface UVI.
+    max_count : int, optional
+        Largest count tried.
+    spacing_m : float, optional
+        Grid cell size [m].
+
+    Returns
+    -------
+    CountAnswer
+    """
+    from audit_lib.lamps import EmitterPosition, LedArray
+
+    if statistic not in HEIGHT_STATISTICS:
+        raise InputError(
+            f"unknown statistic {statistic!r}",
+            field="statistic",
+            hint="use one of " + ", ".join(HEIGHT_STATISTICS),
+        )
+    lo, hi = (float(v) for v in uvi_range)
+    index = [i for i, p in enumerate(enclosure.lamps) if p.id == lamp]
+    if not index or not isinstance(enclosure.lamps[index[0]].lamp, LedArray):
+        raise InputError(
+            f"no LED-array lamp {lamp!r} in enclosure {enclosure.name!r}",
+            field="lamp",
+            hint="LED arrays: "
+            + ", ".join(p.id for p in enclosure.lamps if isinstance(p.lamp, LedArray)),
+        )
+    placed = enclosure.lamps[index[0]]
+    array = placed.lamp
+    mine = [e for e in array.emitters if e.type == emitter_type]
+    if not mine:
+        raise InputError(
+            f"lamp {lamp!r} has no emitters of type {emitter_type!r}",
+            field="emitter_type",
+            hint="types: " + ", ".join(sorted({e.type for e in array.emitters})),
+        )
+    others = tuple(e for e in array.emitters if e.type != emitter_type)
+    xs = [e.x_m for e in mine]
+    y = float(np.mean([e.y_m for e in mine]))
+    counts = np.arange(1, (max_count or 4 * len(mine)) + 1)
+    _, _, pts = surface_grid(enclosure.surface(surface), spacing_m)
+    reduce = np.max if statistic == "max" else np.mean
+    values = np.empty(counts.size)
+    lamps = list(enclosure.lamps)
+    for j, n in enumerate(counts):
+        x = np.linspace(min(xs), max(xs), n) if n > 1 else np.array([np.mean(xs)])
+        new = tuple(
+            EmitterPosition(emitter_type, float(v), y, name=f"{emitter_type}-{i + 1}")
+            for i, v in enumerate(x)
+        )
+        lamps[index[0]] = replace(placed, lamp=replace(array, emitters=others + new))
+        scene = replace(enclosure, lamps=tuple(lamps))
+        values[j] = reduce(evaluate_points(scene, pts, ("uvi",)).values["uvi"])
+    good = (values >= lo) & (values <= hi)
+    what = f"{statistic} UVI on {surface!r}"
+    if good.any():
+        best = int(counts[np.argmax(good)])
+        message = (
+            f"{best} emitter(s) of type {emitter_type!r} in lamp {lamp!r} give a {what} "
+            f"within {lo:g}-{hi:g} (now {len(mine)})."
+        )
+    else:
+        j = int(np.argmin(np.where(values < lo, lo - values, values - hi)))
+        best = int(counts[j])
+        message = (
+            f"No count from 1 to {counts[-1]} emitters of type {emitter_type!r} brings the "
+            f"{what} into {lo:g}-{hi:g}; closest {values[j]:.2f} with {best}: change the "
+            "mounting height or the emitter type."
+        )
+    return CountAnswer(
+        lamp,
+        emitter_type,
+        surface,
+        statistic,
+        (lo, hi),
+        counts,
+        values,
+        bool(good.any()),
+        best,
+        message,
+    )

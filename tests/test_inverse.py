@@ -50,3 +50,28 @@ def test_height_says_when_no_height_can():
         height_for_target(enc, "spot", "rock", (1, 2))
     with pytest.raises(InputError, match="unknown statistic 'median'"):
         height_for_target(enc, "compact UVB lamp", "rock", (1, 2), statistic="median")
+
+
+def test_emitter_count_matches_superposition():
+    """Far from a short row, N identical emitters give about N times one emitter's UVI
+    (superposition); the smallest count reaching the range is returned."""
+    from audit_lib.emitters import EmitterType
+    from audit_lib.inverse import emitter_count_for_target
+    from audit_lib.lamps import LedArray, line_of_emitters
+
+    uvb = EmitterType("uvb", 305, 12, 0.002, beam_angle_deg=120)
+    bar = LedArray("bar", (uvb,), line_of_emitters(["uvb"] * 4, 0.01))
+    rock = Surface("rock", 0.0, 0.49, 0.51, 0.29, 0.31)
+    enc = Enclosure("box", 1.0, 0.6, 2.0, (PlacedLamp(bar, 0.5, 0.3, 1.5),), (rock,))
+    answer = emitter_count_for_target(enc, "bar", "uvb", "rock", (0.0, 1e9), max_count=8)
+    per_emitter = answer.uvi[0]
+    np.testing.assert_allclose(answer.uvi, per_emitter * answer.counts, rtol=1e-3)
+    target = (3.5 * per_emitter, 4.5 * per_emitter)
+    got = emitter_count_for_target(enc, "bar", "uvb", "rock", target, max_count=8)
+    assert got.achievable and got.suggested_count == 4
+    none = emitter_count_for_target(
+        enc, "bar", "uvb", "rock", (100 * per_emitter, 200 * per_emitter)
+    )
+    assert not none.achievable and "No count from 1 to 16" in none.message
+    with pytest.raises(InputError, match="has no emitters of type 'uva'"):
+        emitter_count_for_target(enc, "bar", "uva", "rock", (1, 2))
