@@ -163,7 +163,30 @@ def _crossing_hours(model: str, params: np.ndarray, threshold: float) -> np.ndar
     return np.maximum(out, 0.0)
 
 
-def _fit_one(model: str, hours: np.ndarray, values: np.ndarray, sigma) -> ModelFit:
+def display_step(values) -> float:
+    """Smallest decimal step the values were written with (0.1 for 2.3, 4.1, 3.0) [unit].
+
+    Meters show a fixed number of decimals; readings are rounded to that step.
+    Returns 1e-6 for values written with more than six decimals.
+    """
+    values = np.asarray(values, dtype=float)
+    for k in range(7):
+        scaled = values * 10.0**k
+        if np.all(np.abs(scaled - np.round(scaled)) < 1e-6 * max(1.0, 10.0**k)):
+            return 10.0**-k
+    return 1e-6
+
+
+def _jacobian(model: str, hours: np.ndarray, params) -> np.ndarray:
+    y0, rate = params
+    if model == "exponential":
+        e = np.exp(-rate * hours)
+        return np.column_stack([e, -y0 * hours * e])
+    return np.column_stack([np.ones_like(hours), -hours])
+
+
+def _fit_one(model: str, hours: np.ndarray, values: np.ndarray, sigma,
+             min_variance: float = 0.0) -> ModelFit:
     from scipy.optimize import curve_fit
 
     y0 = float(values[np.argmin(hours)])
@@ -188,12 +211,18 @@ def _fit_one(model: str, hours: np.ndarray, values: np.ndarray, sigma) -> ModelF
     rss = float(np.sum(resid**2))
     n = len(values)
     aic = n * math.log(max(rss, 1e-300) / n) + 2 * len(params)
+    dof = n - len(params)
+    if sigma is None and dof > 0 and rss / dof < min_variance:
+        # scatter smaller than the rounding of the readings: use the rounding variance
+        jac = _jacobian(model, hours, params)
+        with np.errstate(all="ignore"):
+            cov = np.linalg.pinv(jac.T @ jac) * min_variance
     stderr = tuple(float(s) for s in np.sqrt(np.clip(np.diag(cov), 0, None)))
     if not np.all(np.isfinite(cov)):
         warnings.warn(f"{model} decay fit gave no parameter uncertainty", DecayFitWarning,
                       stacklevel=3)
     return ModelFit(model, tuple(float(p) for p in params), stderr, cov, rss, aic,
-                    n - len(params), sigma is not None)
+                    dof, sigma is not None)
 
 
 def fit_decay(hours, values, *, sigma=None) -> DecayFit:
@@ -207,7 +236,11 @@ def fit_decay(hours, values, *, sigma=None) -> DecayFit:
         Output at the same place at each of those hours (e.g. basking UV Index) [unit].
     sigma : array_like, optional
         One-sigma uncertainty of each value (meter uncertainty) [unit]; if given it is
-        used as absolute, otherwise the scatter about the fit sets the uncertainty.
+        used as absolute, otherwise the scatter about the fit sets the uncertainty, but
+        never below the rounding of the readings: variance q²/12 for values written to a
+        step q (:func:`display_step`; rectangular distribution of a digital indication's
+        resolution, JCGM 100:2008 GUM F.2.2.1, from memory). Three readings that happen to
+        lie on a line therefore still get an uncertainty.
 
     Returns
     -------
@@ -233,7 +266,8 @@ def fit_decay(hours, values, *, sigma=None) -> DecayFit:
         return DecayFit(hours, values, "not enough data")
     if np.any(values < 0):
         raise InputError("decay fit needs non-negative output values", field="values")
-    fits = {name: _fit_one(name, hours, values, sigma) for name in MODELS}
+    min_variance = display_step(values) ** 2 / 12.0  # rounding to the display step
+    fits = {name: _fit_one(name, hours, values, sigma, min_variance) for name in MODELS}
     if fits["linear"].params[1] <= 0:
         return DecayFit(hours, values, "no decay", fits)
     if np.all(values > 0) and math.isfinite(fits["exponential"].aic):

@@ -200,3 +200,21 @@ def test_three_audits_give_a_student_t_band():
     assert student_t.ppf(0.84, 1) == pytest.approx(1.82, abs=0.01)
     half_width = (fc.hours_high - fc.hours_low) / 2
     assert half_width == pytest.approx(sd * student_t.ppf(0.84, 1), rel=0.2)
+
+
+def test_exact_fit_keeps_the_rounding_uncertainty():
+    """0.9, 0.8, 0.7 UVI lie exactly on a line, but a meter showing one decimal rounds to
+    0.1: variance 0.1²/12 (GUM F.2.2.1, from memory). The slope's standard error is then
+    the ordinary least-squares one, sqrt(σ² / Σ(h - mean h)²) (any regression text), and
+    the forecast band is not empty."""
+    hours = np.array([0.0, 4000.0, 8000.0])
+    fit = decay.fit_decay(hours, [0.9, 0.8, 0.7])
+    assert decay.display_step([0.9, 0.8, 0.7]) == pytest.approx(0.1)
+    assert decay.display_step([2.25, 3.0]) == pytest.approx(0.01)
+    linear = fit.fits["linear"]
+    assert linear.rss == pytest.approx(0.0, abs=1e-20)
+    expected = math.sqrt((0.1**2 / 12) / np.sum((hours - hours.mean()) ** 2))
+    assert linear.stderr[1] == pytest.approx(expected, rel=1e-6)
+    fc = decay.forecast_crossing(fit, 0.6, installed_on="2024-01-01", daily_hours=12,
+                                 model="linear")
+    assert fc.date_early < fc.date < fc.date_late
