@@ -186,6 +186,43 @@ def _run_sun(args) -> int:
     return 0
 
 
+def _add_fit_emitter_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "fit-emitter",
+        help="fit peak, FWHM and asymmetry of an emission line to a measured spectrum",
+    )
+    p.add_argument("file", help="spectrum file (CSV, TSV or TXT): wavelength [nm] and irradiance")
+    p.add_argument("--unit", help="irradiance unit if the header does not say it")
+    p.add_argument("--shape", default="lorentzian",
+                   help="lorentzian, gaussian, sigmoid_lorentzian or sigmoid_gaussian")
+    p.add_argument("--from-nm", type=float, default=250.0, help="start of the fitted range [nm]")
+    p.add_argument("--to-nm", type=float, default=420.0, help="end of the fitted range [nm]")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(handler=_run_fit_emitter)
+
+
+def _run_fit_emitter(args) -> int:
+    import dataclasses
+    import json
+
+    from audit_lib.emitters import fit_line_shape
+    from audit_lib.spectra import read_spectrum
+
+    fit = fit_line_shape(read_spectrum(args.file, unit=args.unit), shape=args.shape,
+                         lo_nm=args.from_nm, hi_nm=args.to_nm)
+    if args.json:
+        print(json.dumps(dataclasses.asdict(fit), indent=2))
+    else:
+        print(f"shape              {fit.shape}")
+        print(f"peak               {fit.peak_nm:.2f} nm")
+        print(f"FWHM               {fit.fwhm_nm:.2f} nm")
+        print(f"asymmetry          {fit.asymmetry:.3f} (short-side / long-side half width)")
+        print(f"peak value         {fit.amplitude:.4g} W/m²/nm")
+        print(f"fit residual (RMS) {fit.residual_rms:.3g} W/m²/nm "
+              f"({100 * fit.relative_residual:.2f} % of the peak)")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser with every subcommand registered."""
     parser = argparse.ArgumentParser(
@@ -194,7 +231,8 @@ def build_parser() -> argparse.ArgumentParser:
     )
     subparsers = parser.add_subparsers(dest="command", required=True)
     for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,
-                _add_import_parser, _add_forecast_parser, _add_sun_parser):
+                _add_import_parser, _add_forecast_parser, _add_sun_parser,
+                _add_fit_emitter_parser):
         add(subparsers)
     return parser
 
