@@ -46,12 +46,14 @@ reference = { distance = "30 cm", uvi = 2.0 }   # on-axis output when new
 
 [[lamp_models.bands]]             # modelled spectrum: phosphor emission bands
 peak_nm = 313
-fwhm_nm = 40
+fwhm_nm = 22
+asymmetry = 0.5                   # short-side / long-side half width: little below 290 nm
 share = 0.3
 
 [[lamp_models.bands]]
 peak_nm = 350
-fwhm_nm = 50
+fwhm_nm = 40
+asymmetry = 0.6
 share = 0.7
 
 [[species]]                       # your own assignment; check with your own sources

@@ -69,6 +69,17 @@ def _per_lamp(site: Site, enclosure_id: str, points: np.ndarray, failed=()) -> d
     return out
 
 
+def _brightest(site: Site, enc, surface, n: int = 9) -> tuple[float, float]:
+    """Where a keeper reads a surface: its brightest point (UVI, lamps new) [m]."""
+    xs = surface.x_m + (np.arange(n) + 0.5) / n * surface.width_m
+    ys = surface.y_m + (np.arange(n) + 0.5) / n * surface.depth_m
+    gx, gy = np.meshgrid(xs, ys)
+    points = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, surface.z_m)])
+    uvi = evaluate_points(build_scene(site, enc.id), points, ("uvi",)).values["uvi"]
+    best = int(np.argmax(uvi))
+    return float(points[best, 0]), float(points[best, 1])
+
+
 def _noisy(rng, value: float, quantity: str) -> tuple[float, str]:
     value *= 1.0 + rng.normal(0.0, 0.04)
     if quantity == "uvi":
@@ -85,8 +96,7 @@ def audit_rows(site: Site, day: dt.date, rng, *, fail_from: dict[str, dt.date],
     for enc in site.records.enclosures:
         failed = failed_labels(site, enc.id)
         failed = tuple(f for f in failed if day >= fail_from.get(enc.id, dt.date.max))
-        spots = [(s.id, s.x_m + s.width_m / 2, s.y_m + s.depth_m / 2, s.z_m, "surface")
-                 for s in enc.surfaces]
+        spots = [(s.id, *_brightest(site, enc, s), s.z_m, "surface") for s in enc.surfaces]
         spots += [(p.id, p.x_m, p.y_m, p.z_m, "position") for p in enc.positions]
         checks = [(lp.id, lp.x_m, lp.y_m, max(lp.z_m - 0.3, 0.0)) for lp in enc.lamps]
         points = np.array([s[1:4] for s in spots] + [c[1:4] for c in checks], float)
@@ -154,12 +164,12 @@ def model_spectrum_file(path: Path, bands: list[dict], uvi: float, meta: dict, r
     write_spectrum_csv(path, wl, np.clip(e + noise, 0.0, None), meta)
 
 
-TUBE_BANDS = [dict(peak_nm=313, fwhm_nm=38, share=0.22, asymmetry=0.8),
-              dict(peak_nm=352, fwhm_nm=45, share=0.48),
+TUBE_BANDS = [dict(peak_nm=313, fwhm_nm=22, share=0.22, asymmetry=0.5),
+              dict(peak_nm=352, fwhm_nm=40, share=0.48, asymmetry=0.6),
               dict(peak_nm=545, fwhm_nm=12, share=0.12),
               dict(peak_nm=612, fwhm_nm=14, share=0.10),
               dict(peak_nm=440, fwhm_nm=16, share=0.08)]
-FLOOD_BANDS = [dict(peak_nm=305, fwhm_nm=30, share=0.06, asymmetry=0.9),
+FLOOD_BANDS = [dict(peak_nm=312, fwhm_nm=22, share=0.06, asymmetry=0.5),
                dict(peak_nm=365, fwhm_nm=12, share=0.18),
                dict(peak_nm=405, fwhm_nm=8, share=0.10),
                dict(peak_nm=436, fwhm_nm=8, share=0.14),
@@ -199,8 +209,8 @@ def make_park(rng) -> None:
                        basking.z_m]])
     uvi = float(evaluate_points(build_scene(site, "rh-05"), point, ("uvi",)).values["uvi"][0])
     model_spectrum_file(PARK / "spectra" / "rh-05_t8-tube_2026-03-10.csv",
-                        [dict(peak_nm=313, fwhm_nm=38, share=0.12, asymmetry=0.8),
-                         dict(peak_nm=352, fwhm_nm=45, share=0.48),
+                        [dict(peak_nm=313, fwhm_nm=22, share=0.12, asymmetry=0.5),
+                         dict(peak_nm=352, fwhm_nm=40, share=0.48, asymmetry=0.6),
                          dict(peak_nm=545, fwhm_nm=12, share=0.18),
                          dict(peak_nm=612, fwhm_nm=14, share=0.14),
                          dict(peak_nm=440, fwhm_nm=16, share=0.08)], uvi * left,
