@@ -22,10 +22,48 @@ __all__ = ["MapView", "DailyView", "WhatIfPanel", "WhatIfPlanner", "open_panel"]
 _DPI = 80
 
 
-def _png(fig) -> bytes:
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=_DPI, pil_kwargs={"compress_level": 1})
-    return buf.getvalue()
+def _nice_top(value: float) -> float:
+    """Round an axis top up to 1, 2 or 5 times a power of ten (fewer full redraws)."""
+    import math
+
+    value = max(float(value), 1e-9)
+    base = 10 ** math.floor(math.log10(value))
+    return next(m * base for m in (1, 2, 5, 10) if m * base >= value)
+
+
+class _Blitter:
+    """Render a figure to PNG, redrawing only its changing artists over a kept background.
+
+    The static part (axes, ticks, labels, colour bar) is drawn once and kept; each frame
+    restores it and draws the given artists on top (the usual matplotlib blitting).
+    ``full=True`` redraws everything (after axis limits or colour limits changed).
+    """
+
+    def __init__(self, fig):
+        self.fig = fig
+        self.background = None
+
+    def render(self, dynamic, *, full: bool = False) -> bytes:
+        from PIL import Image
+
+        canvas = self.fig.canvas
+        dynamic = [a for a in dynamic if a is not None]
+        if full or self.background is None:
+            for a in dynamic:
+                a.set_visible(False)
+            canvas.draw()
+            self.background = canvas.copy_from_bbox(self.fig.bbox)
+            for a in dynamic:
+                a.set_visible(True)
+        canvas.restore_region(self.background)
+        renderer = canvas.get_renderer()
+        for a in dynamic:
+            a.draw(renderer)
+        image = Image.frombuffer("RGBA", canvas.get_width_height(), canvas.buffer_rgba(),
+                                 "raw", "RGBA", 0, 1)
+        buf = io.BytesIO()
+        image.save(buf, format="PNG", compress_level=1)
+        return buf.getvalue()
 
 
 class MapView:
@@ -45,9 +83,11 @@ class MapView:
 
         from audit_lib.report.style import MAP_COLORMAP, PALETTE
 
-        self.fig = Figure(figsize=(6.4, 4.2))
+        self.fig = Figure(figsize=(6.4, 4.2), dpi=_DPI)
         self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.11, top=0.92)
         FigureCanvasAgg(self.fig)
+        self.blitter = _Blitter(self.fig)
+        self._full = True
         ax = self.ax = self.fig.add_subplot()
         order = sorted(result.maps.values(), key=lambda m: m.surface.z_m)
         self.images = {}
@@ -74,7 +114,9 @@ class MapView:
                                       color=PALETTE["vermillion"], markeredgecolor="black",
                                       linestyle="none", label="basking maximum")
         self.contours = []
-        ax.legend(loc="upper right", fontsize="x-small", framealpha=0.8)
+        self.legend = ax.legend(loc="upper right", fontsize="x-small", framealpha=0.8)
+        ax.set_title("UV Index at each surface's height; lines: zone maximum range",
+                     fontsize="small")
         self.update(result, scene)
 
     def update(self, result: PlanResult, scene) -> None:
@@ -82,9 +124,12 @@ class MapView:
         top = max(1.0, max(float(m.values["uvi"].max()) for m in result.maps.values()))
         if result.zone is not None:
             top = max(top, result.zone.max_uvi_high * 1.1)
+        top = _nice_top(top)
         for name, image in self.images.items():
             image.set_data(result.maps[name].values["uvi"])
-            image.set_clim(0.0, top)
+            if image.get_clim()[1] != top:
+                image.set_clim(0.0, top)
+                self._full = True
         for c in self.contours:
             c.remove()
         self.contours = []
@@ -100,14 +145,13 @@ class MapView:
         lamp = next(p for p in scene.lamps if p.id == result.config.lamp)
         self.lamp_marker.set_data([lamp.x_m], [lamp.y_m])
         self.peak_marker.set_data([result.peak_point_m[0]], [result.peak_point_m[1]])
-        zone = (f"; contours: zone {result.zone.zone} maximum range "
-                f"{result.zone.max_uvi_low:g} (dashed) to {result.zone.max_uvi_high:g}"
-                if result.zone is not None else "")
-        self.ax.set_title(f"UV Index map, lamp at {lamp.z_m:.2f} m{zone}", fontsize="small")
 
     def png(self) -> bytes:
-        """The figure rendered to PNG."""
-        return _png(self.fig)
+        """The figure rendered to PNG (only the changing artists are redrawn)."""
+        dynamic = [*self.images.values(), *self.ax.patches, *self.ax.texts, *self.contours,
+                   self.lamp_marker, self.peak_marker, *self.ax.spines.values(), self.legend]
+        full, self._full = self._full, False
+        return self.blitter.render(dynamic, full=full)
 
 
 def _rectangle(surface, colour):
@@ -127,9 +171,12 @@ class DailyView:
 
         from audit_lib.report.style import PALETTE
 
-        self.fig = Figure(figsize=(6.4, 3.0))
+        self.fig = Figure(figsize=(6.4, 3.0), dpi=_DPI)
         self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.16, top=0.95)
         FigureCanvasAgg(self.fig)
+        self.blitter = _Blitter(self.fig)
+        self._full = True
+        self.legend = None
         ax = self.ax = self.fig.add_subplot()
         (self.sun_line,) = ax.plot([], [], color=PALETTE["black"], linestyle=(0, (5, 3)),
                                    linewidth=1.2, label="sun, clear sky (scaled)")
@@ -172,12 +219,18 @@ class DailyView:
             top = max(top, float(result.daily.max()))
         else:
             self.lamp_line.set_data([], [])
-        self.ax.set_ylim(0, top * 1.1)
-        self.ax.legend(loc="upper left", fontsize="x-small", framealpha=0.8)
+        top = _nice_top(top * 1.1)
+        if self.ax.get_ylim()[1] != top:
+            self.ax.set_ylim(0, top)
+            self._full = True
+        self.legend = self.ax.legend(loc="upper left", fontsize="x-small", framealpha=0.8)
 
     def png(self) -> bytes:
-        """The figure rendered to PNG."""
-        return _png(self.fig)
+        """The figure rendered to PNG (only the changing artists are redrawn)."""
+        dynamic = [*self.bands, self.sun_line, self.lamp_line, *self.ax.spines.values(),
+                   self.legend]
+        full, self._full = self._full, False
+        return self.blitter.render(dynamic, full=full)
 
 
 def _summary_html(r: PlanResult) -> str:
@@ -185,6 +238,7 @@ def _summary_html(r: PlanResult) -> str:
         return "-" if x is None else fmt.format(x)
 
     rows = [
+        ("Lamp height above the floor [m]", f"{r.config.z_m:.2f}"),
         ("Basking maximum UV Index",
          f"{r.basking_max_uvi:.2f} on {html.escape(r.basking_surface)}"),
         ("Share of the floor at or below the refuge UV Index", f"{r.refuge_share:.0%}"),
