@@ -1,0 +1,61 @@
+"""The demo sites give the verdicts they were designed for (regression pin of the demo data).
+
+This is not an external check of the physics (those live beside each module); it keeps the
+invented demo consistent with the library: the enclosures without planted problems meet
+their targets and each planted problem fails the check it was planted for.
+"""
+
+from __future__ import annotations
+
+import warnings
+from pathlib import Path
+
+import pytest
+
+from audit_lib.targets import WITHIN
+
+SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
+
+#: Planted problem -> the check that must fail, by enclosure (see the park's site.toml).
+PLANTED = {
+    "rh-02": "basking UV Index maximum",        # lamp too close: above the zone's maximum
+    "rh-05": "basking UV Index maximum",        # tube never replaced: below the zone's range
+    "rh-08": "low-UV refuge share of floor",    # no refuge
+    "rh-09": "short-wave UVB share (280-290 nm)",  # 300 nm emitters (and a failed emitter)
+}
+
+
+def _audits(root: Path):
+    from audit_lib.audit import audit_enclosure
+    from audit_lib.site import load_site
+
+    site = load_site(root)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return {e.id: audit_enclosure(site, e.id, with_failures=False, spacing_m=0.05)
+                for e in site.records.enclosures}
+
+
+@pytest.mark.slow
+def test_park_verdicts_match_the_planted_problems():
+    """Zone ranges: Ferguson et al. 2010, Zoo Biology 29:317-334 (values from memory, as
+    shipped in audit_lib/data/ferguson_zones.csv); refuge and keeper limits as in
+    audit_lib.targets (ICNIRP 2004 actinic limit; refuge threshold common practice)."""
+    audits = _audits(SAMPLES / "kestrel-moor-wildlife-park")
+    for enclosure_id, audit in audits.items():
+        failing = {c.name for c in audit.checks if c.state != WITHIN}
+        if enclosure_id in PLANTED:
+            assert PLANTED[enclosure_id] in failing, (enclosure_id, failing)
+        else:
+            assert not failing, (enclosure_id, failing)
+    assert len(audits) - len(PLANTED) >= 8
+
+
+@pytest.mark.slow
+def test_client_site_meets_targets_after_the_tube_change():
+    """The client's 2026 visit, after the tube was replaced, meets every target (same sources
+    as above)."""
+    audits = _audits(SAMPLES / "ashdown-private-collection")
+    for enclosure_id, audit in audits.items():
+        failing = {c.name for c in audit.checks if c.state != WITHIN}
+        assert not failing, (enclosure_id, failing)
