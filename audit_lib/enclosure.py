@@ -207,6 +207,13 @@ class Enclosure:
         names = [s.name for s in self.all_surfaces]
         if len(set(names)) != len(names):
             raise InputError("surface names must be unique", field=f"{self.name}.surfaces")
+        ids = [p.id for p in self.lamps]
+        if len(set(ids)) != len(ids):
+            raise InputError(
+                "lamp ids must be unique within an enclosure",
+                field=f"{self.name}.lamps",
+                hint="give PlacedLamp(name=...) to tell two lamps of the same model apart",
+            )
 
     @property
     def all_surfaces(self) -> tuple[Surface, ...]:

@@ -323,3 +323,15 @@ def test_pattern_solid_angle_isotropic():
 
     assert pattern_solid_angle(ISOTROPIC) == pytest.approx(4 * math.pi, rel=1e-6)
     assert line_shape(300, 300, 10) == 1.0
+
+
+def test_enclosure_validation_messages():
+    lamp = PointLamp("compact", FLAT, radiant_flux_w=1.0)
+    with pytest.raises(InputError, match="lamp ids must be unique within an enclosure"):
+        _box(PlacedLamp(lamp, 1, 1, 1), PlacedLamp(lamp, 1.5, 1, 1))
+    with pytest.raises(InputError, match="surface extent is empty"):
+        Surface("rock", 0.2, 0.5, 0.4, 0.0, 0.1)
+    with pytest.raises(InputError, match="unknown surface kind 'shelf'"):
+        Surface("rock", 0.2, 0.0, 0.4, 0.0, 0.1, kind="shelf")
+    with pytest.raises(InputError, match="give either transmission or both wavelength_nm"):
+        Screen("glass", 0.5)
