@@ -8,6 +8,7 @@ naming the file, line and field; never a traceback.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import warnings
 
@@ -255,6 +256,10 @@ def main(argv: list[str] | None = None) -> int:
         except AuditError as exc:
             print(f"error: {exc}", file=sys.stderr)
             return 1
+        except BrokenPipeError:
+            # output piped into `head` and closed early: not an error of ours
+            sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the flush at exit
+            return 0
 
 
 if __name__ == "__main__":
