@@ -365,8 +365,11 @@ def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today:
         enclosures.setdefault(enc.id, enc)  # the first of duplicates, as reported
     meters = {m.id for m in _live(site.meters)} | dropped.get("meters", set())
     problems = []
+    files: dict[str, Path] = {}
     for row in readings.itertuples(index=False):
-        where = {"path": root / "readings" / row.source_file, "line": int(row.source_line)}
+        if row.source_file not in files:
+            files[row.source_file] = root / "readings" / row.source_file
+        where = {"path": files[row.source_file], "line": int(row.source_line)}
         enc = enclosures.get(row.enclosure)
         if row.enclosure in dropped.get("enclosures", set()):
             pass  # the enclosure itself is invalid; reported in site.toml
