@@ -563,3 +563,33 @@ def write_scenario_site(site_dir, name: str, dest) -> tuple[Path, str]:
         shutil.rmtree(dest / "readings")
     load_site(dest)  # the copy must load like any site
     return dest, scenario.enclosure
+
+
+def run_scenario(site_dir, name: str, out_dir, **batch_options):
+    """Render a saved scenario as an enclosure report with the batch run.
+
+    The scenario's own site folder is written to ``OUT/scenario-sites/<name>`` (see
+    :func:`write_scenario_site`) and audited like any site, into ``out_dir``.
+
+    Parameters
+    ----------
+    site_dir : str or PathLike
+        The site folder holding ``scenarios/<name>.toml``.
+    name : str
+        Scenario name.
+    out_dir : str or PathLike
+        Output folder for the report, index and results files.
+    **batch_options
+        Passed to :func:`audit_lib.batch.run_batch` (``jobs``, ``audit_date``,
+        ``progress``...); the site overview is left out.
+
+    Returns
+    -------
+    audit_lib.batch.BatchResult
+    """
+    from audit_lib.batch import run_batch
+
+    copy, enclosure = write_scenario_site(site_dir, name,
+                                          Path(out_dir) / "scenario-sites" / name)
+    batch_options.setdefault("overview", False)
+    return run_batch(copy, out_dir, only=[enclosure], **batch_options)
