@@ -144,6 +144,8 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     from pydantic import ValidationError
 
     root = Path(path)
+    if root.name == SITE_FILE and root.is_file():  # the file itself was given
+        root = root.parent
     toml_path = root / SITE_FILE
     today = today or dt.datetime.now(dt.timezone.utc).date()
     if not toml_path.is_file():

@@ -191,3 +191,9 @@ def test_dates_in_the_future_depend_on_today(tmp_path):
     assert check_site(tmp_path, today=dt.date(2026, 1, 15)) == []
     problems = check_site(tmp_path, today=dt.date(2026, 1, 14))
     assert [p.field for p in problems] == ["date", "date"]
+
+
+def test_site_file_path_is_accepted_for_its_folder(tmp_path):
+    """Giving site.toml instead of its folder loads the same site (common practice)."""
+    new_site(tmp_path)
+    assert load_site(tmp_path / "site.toml").records == load_site(tmp_path).records
