@@ -70,13 +70,19 @@ class GroupFactors:
 
 
 def _pattern(group: SourceGroup, cos_t: np.ndarray) -> np.ndarray:
+    """Relative intensity from cos(angle to the axis); overwrites ``cos_t`` when it can."""
     if isinstance(group.pattern, str):
         if group.pattern != LINE_ELEMENT:
             raise ValueError(f"unknown pattern marker {group.pattern!r}")
-        return np.sqrt(np.maximum(1.0 - cos_t * cos_t, 0.0))
+        np.multiply(cos_t, cos_t, out=cos_t)  # sin of the angle to the tube axis
+        np.subtract(1.0, cos_t, out=cos_t)
+        np.maximum(cos_t, 0.0, out=cos_t)
+        return np.sqrt(cos_t, out=cos_t)
     if isinstance(group.pattern, AngularPattern):
         return pattern_relative_intensity(group.pattern, cos_t)
-    return pattern_relative_intensity(float(group.pattern), cos_t)
+    m = float(group.pattern)
+    np.maximum(cos_t, 0.0, out=cos_t)
+    return cos_t if m == 1.0 else np.power(cos_t, m, out=cos_t)
 
 
 def group_factors(
@@ -126,7 +132,10 @@ def group_factors(
                 else np.broadcast_to(crossing[:, None], (n_src, n_pts))
             )
         return gf
-    factor = np.empty((n_src, n_pts))
+    keep = keep or group.valid_range_m is not None  # measured lamps need it for range flags
+    factor = np.empty((n_src, n_pts)) if keep else None
+    alive_sum = np.empty(n_pts)
+    total = np.empty(n_pts)
     factor_cos = np.empty(n_pts)
     keep_r = group.valid_range_m is not None
     distance = np.empty((n_src, n_pts)) if keep_r else None
@@ -136,28 +145,51 @@ def group_factors(
     fx, fy, fz = (float(c) for c in group.front)
     w = np.asarray(group.weights, float)[:, None]
     n_exp = float(group.distance_exponent)
+    width0 = min(_BLOCK, n_pts)
+    dx, dy, dz, r2, inv_r, cos_i, cos_t, tmp = (np.empty((n_src, width0)) for _ in range(8))
+    spare = None if keep else np.empty((n_src, width0))
     for start in range(0, n_pts, _BLOCK):
         sl = slice(start, min(start + _BLOCK, n_pts))
-        dx = pts[None, sl, 0] - sx
-        dy = pts[None, sl, 1] - sy
-        dz = pts[None, sl, 2] - sz
-        r2 = dx * dx + dy * dy + dz * dz
-        np.maximum(r2, 1e-12, out=r2)
-        inv_r = 1.0 / np.sqrt(r2)
-        cos_i = -(nx * dx + ny * dy + nz * dz) * inv_r
-        np.maximum(cos_i, 0.0, out=cos_i)
-        cos_t = (ax * dx + ay * dy + az * dz) * inv_r
-        rel = _pattern(group, cos_t)
-        if group.front_factor != 1.0:
-            rel = rel * np.where(fx * dx + fy * dy + fz * dz > 0, group.front_factor, 1.0)
-        fall = inv_r * inv_r if n_exp == 2.0 else inv_r**n_exp
-        block = w * rel * cos_i * fall
-        factor[:, sl] = block
-        factor_cos[sl] = (block * cos_i).sum(axis=0)
+        k = sl.stop - sl.start
+        bx, by, bz, br2, binv, bci, bct, btmp = (
+            a[:, :k] for a in (dx, dy, dz, r2, inv_r, cos_i, cos_t, tmp)
+        )
+        np.subtract(pts[None, sl, 0], sx, out=bx)
+        np.subtract(pts[None, sl, 1], sy, out=by)
+        np.subtract(pts[None, sl, 2], sz, out=bz)
+        np.multiply(bx, bx, out=br2)
+        np.multiply(by, by, out=btmp)
+        br2 += btmp
+        np.multiply(bz, bz, out=btmp)
+        br2 += btmp
+        np.maximum(br2, 1e-12, out=br2)
+        np.sqrt(br2, out=binv)
         if keep_r:
-            distance[:, sl] = np.sqrt(r2)
+            distance[:, sl] = binv
+        np.divide(1.0, binv, out=binv)
+        _dot(bx, by, bz, -nx, -ny, -nz, out=bci, tmp=btmp)
+        bci *= binv
+        np.maximum(bci, 0.0, out=bci)
+        _dot(bx, by, bz, ax, ay, az, out=bct, tmp=btmp)
+        bct *= binv
+        rel = _pattern(group, bct)
+        if group.front_factor != 1.0:
+            _dot(bx, by, bz, fx, fy, fz, out=btmp, tmp=br2)
+            rel = rel * np.where(btmp > 0, group.front_factor, 1.0)
+        block = factor[:, sl] if keep else spare[:, :k]
+        if n_exp == 2.0:
+            np.multiply(binv, binv, out=block)
+        else:
+            np.power(binv, n_exp, out=block)
+        block *= rel
+        block *= bci
+        block *= w
+        np.matmul(alive, block, out=alive_sum[sl])
+        block.sum(axis=0, out=total[sl])
+        np.multiply(block, bci, out=btmp)
+        factor_cos[sl] = btmp.sum(axis=0)
         for mask, screen in zip(masks, screens, strict=True):
-            mask[:, sl] = _crosses(screen, sx, sy, sz, dx, dy, dz)
+            mask[:, sl] = _crosses(screen, sx, sy, sz, bx, by, bz)
     out_masks = []
     for mask in masks:
         if mask.all():
@@ -166,9 +198,7 @@ def group_factors(
             out_masks.append(False)
         else:
             out_masks.append(mask)
-    return GroupFactors(
-        factor, alive @ factor, factor.sum(axis=0), factor_cos, distance, out_masks
-    )
+    return GroupFactors(factor, alive_sum, total, factor_cos, distance, out_masks)
 
 
 def _straight_down(group: SourceGroup, normal, pts) -> bool:
@@ -233,6 +263,16 @@ def _straight_down_factors(
         r2 *= block
         factor_cos[sl] = r2.sum(axis=0)
     return GroupFactors(factor, alive_sum, total, factor_cos, None, [])
+
+
+def _dot(bx, by, bz, cx, cy, cz, out, tmp) -> np.ndarray:
+    """Write cx * bx + cy * by + cz * bz into ``out`` (c scalars or (n, 1) columns)."""
+    np.multiply(bx, cx, out=out)
+    np.multiply(by, cy, out=tmp)
+    out += tmp
+    np.multiply(bz, cz, out=tmp)
+    out += tmp
+    return out
 
 
 def _crosses(screen: ScreenPlane, sx, sy, sz, dx, dy, dz) -> np.ndarray:

@@ -541,7 +541,14 @@ def _point_sources(lamp: PointLamp) -> list[SourceGroup]:
 
 def _measured_sources(lamp: MeasuredLamp) -> list[SourceGroup]:
     from audit_lib.emitters import lambertian_order
+    from audit_lib.metrics import QUANTITIES
 
+    if lamp.quantity not in QUANTITIES:
+        raise InputError(
+            f"unknown quantity {lamp.quantity!r} for the readings of lamp {lamp.name!r}",
+            field=f"{lamp.name}.quantity",
+            hint="one of " + ", ".join(QUANTITIES),
+        )
     fit = fit_distance_law(lamp.distance_m, lamp.values, lamp.law)
     wl = spectral = None
     if lamp.spectrum is not None:

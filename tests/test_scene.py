@@ -335,3 +335,24 @@ def test_enclosure_validation_messages():
         Surface("rock", 0.2, 0.0, 0.4, 0.0, 0.1, kind="shelf")
     with pytest.raises(InputError, match="give either transmission or both wavelength_nm"):
         Screen("glass", 0.5)
+
+
+def test_measured_lamp_from_readings_table():
+    """Readings with distances (the readings-table contract) become a measured lamp; repeated
+    distances are averaged; a power law through exact 1/d^2 data has exponent 2."""
+    import pandas as pd
+
+    from audit_lib.lamps import measured_lamp_from_readings
+
+    rows = [("tube", d, "uvi", 0.27 / d**2) for d in (0.2, 0.3, 0.3, 0.4)]
+    rows += [("tube", float("nan"), "uvi", 9.0), ("other", 0.2, "uvi", 1.0)]
+    table = pd.DataFrame(rows, columns=["lamp", "distance_m", "quantity", "value_si"])
+    lamp = measured_lamp_from_readings(table, "tube")
+    assert lamp.distance_m == (0.2, 0.3, 0.4) and lamp.quantity == "uvi"
+    fit = fit_distance_law(lamp.distance_m, lamp.values)
+    assert fit.exponent == pytest.approx(2.0) and fit.coefficient == pytest.approx(0.27)
+    with pytest.raises(InputError, match="no readings with a distance for lamp 'spot'"):
+        measured_lamp_from_readings(table, "spot")
+    bad = MeasuredLamp("m", (0.2, 0.3), (2.0, 1.0), quantity="UVI")
+    with pytest.raises(InputError, match="unknown quantity 'UVI' for the readings of lamp 'm'"):
+        lamp_sources(bad)
