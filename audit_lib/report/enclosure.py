@@ -207,9 +207,12 @@ def lamps_table(audit) -> pd.DataFrame:
     keep = ["lamp", "lamp_model", "installed_on", "age_days", "hours_now", "points", "model",
             "loss_per_1000h_pct", "last_value", "target_min", "replace_by", "state"]
     out = t[[c for c in keep if c in t.columns]].copy()
+    numeric = out.select_dtypes("number").columns
+    out[numeric] = out[numeric].round(2)
     for c in ("installed_on", "replace_by"):
-        out[c] = pd.to_datetime(out[c]).dt.date
-    return out.round(2).set_index("lamp")
+        if c in out:
+            out[c] = pd.to_datetime(out[c]).dt.date
+    return out.set_index("lamp")
 
 
 def failures_table(audit) -> pd.DataFrame:
@@ -221,16 +224,19 @@ def failures_table(audit) -> pd.DataFrame:
     return t.round(2).set_index("scenario")
 
 
-def safety_table(audit) -> pd.DataFrame:
+def safety_table(audit) -> HTMLBlock:
     """Keeper-safety figures: the keeper check, and each lamp model's indicative risk group."""
-    rows = {}
+    rows = []
     for c in audit.checks:
         if c.name.startswith("keeper exposure limit"):
-            rows[c.name] = {"figure": _num(c.value, 0), "unit": c.unit, "state": c.state,
-                            "reason": c.reason}
+            rows.append((c.name, f"{_num(c.value, 0)} {c.unit}", _badge(c.state), c.reason))
     for model, m in audit.spectra.items():
-        rows[f"lamp model {model}"] = {
-            "figure": str(m.get("risk_group", "")), "unit": "risk group (indicative)",
-            "state": "", "reason": "IEC 62471 actinic and UVA groups from the lamp's spectrum "
-                                   "as modelled; a certificate needs a laboratory measurement."}
-    return pd.DataFrame(rows).T if rows else pd.DataFrame({"note": ["no lamps"]})
+        rows.append((f"lamp model {model}", f"{m.get('risk_group', '')}", "",
+                     "IEC 62471 risk group (indicative) from the lamp's spectrum as modelled; "
+                     "a certificate needs a laboratory measurement."))
+    if not rows:
+        return HTMLBlock("<p>No lamps.</p>")
+    body = "".join(f"<tr><td>{escape(a)}</td><td>{escape(b)}</td><td>{c}</td>"
+                   f"<td>{escape(d)}</td></tr>" for a, b, c, d in rows)
+    return HTMLBlock('<table class="checks"><thead><tr><th>What</th><th>Figure</th>'
+                     f"<th>State</th><th>Reason</th></tr></thead><tbody>{body}</tbody></table>")
