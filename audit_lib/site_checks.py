@@ -14,6 +14,7 @@ from pathlib import Path
 import pandas as pd
 
 from audit_lib.errors import InputError
+from audit_lib.readings import QUANTITIES
 from audit_lib.site_schema import ID_PATTERN, LAMP_KINDS, Record, SiteFile
 
 #: Above these a reading is not physically plausible for any lamp or the sun [SI].
@@ -23,6 +24,13 @@ PLAUSIBLE_MAX = {
     "uva_w_m2": 300.0,
     "vitamin_d_w_m2": 10.0,
     "illuminance_lux": 200_000.0,
+}
+#: What each kind of meter measures (a spectroradiometer gives every quantity).
+METER_QUANTITIES = {
+    "uv_index_meter": ("uvi",),
+    "uvb_meter": ("uvb_w_m2",),
+    "uva_meter": ("uva_w_m2",),
+    "lux_meter": ("illuminance_lux",),
 }
 _HEADER = re.compile(r"^\s*(\[\[?)\s*([A-Za-z0-9_.\-\s\"]+?)\s*\]\]?\s*(#.*)?$")
 _KEYED = re.compile(r"^\[([A-Za-z0-9_]+)\] (.*)$", re.DOTALL)
@@ -364,6 +372,7 @@ def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today:
     for enc in _live(site.enclosures):
         enclosures.setdefault(enc.id, enc)  # the first of duplicates, as reported
     meters = {m.id for m in _live(site.meters)} | dropped.get("meters", set())
+    meter_types = {m.id: m.type for m in _live(site.meters)}
     problems = []
     files: dict[str, Path] = {}
     for row in readings.itertuples(index=False):
@@ -377,17 +386,14 @@ def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today:
             problems.append(_missing_ref(row.enclosure, enclosures, "enclosure", "enclosure",
                                          **_at(where)))
         else:
-            lamps = {lamp.id for lamp in enc.lamps}
-            if row.lamp and row.lamp not in lamps:
-                problems.append(_missing_ref(row.lamp, lamps, "lamp",
-                                             f"lamp in enclosure {enc.id!r}", **_at(where)))
-            spots = {"floor"} | {s.id for s in enc.surfaces} | {q.id for q in enc.positions}
-            if row.position and row.position not in spots:
-                problems.append(_missing_ref(row.position, spots, "position",
-                                             f"position in enclosure {enc.id!r}",
-                                             **_at(where)))
+            problems += _place_problems(row, enc, where)
         if row.meter and row.meter not in meters:
             problems.append(_missing_ref(row.meter, meters, "meter", "meter", **_at(where)))
+        elif row.meter in meter_types and row.quantity not in METER_QUANTITIES.get(
+                meter_types[row.meter], QUANTITIES):
+            problems.append(InputError(
+                f"a {meter_types[row.meter]} does not measure {row.quantity}", field="meter",
+                **where, hint="check the meter and quantity columns of this row"))
         if row.date.date() > today:
             problems.append(InputError(f"date {row.date.date()} is in the future", field="date",
                                        **where, hint=f"today is {today}; check the year"))
@@ -400,6 +406,36 @@ def readings_problems(readings: pd.DataFrame, site: SiteFile, root: Path, today:
                 f"{row.quantity} of {row.value_si:g} is above {limit:g}, more than any lamp "
                 "or the sun gives", field="value", **where,
                 hint="check the unit column (e.g. uW/cm^2 written as W/m^2 is 100x too high)"))
+    return problems
+
+
+def _place_problems(row, enc, where: dict) -> list[InputError]:
+    """Lamp, position, coordinates and distance of one reading in its enclosure."""
+    problems = []
+    lamps = {lamp.id for lamp in enc.lamps}
+    if row.lamp and row.lamp not in lamps:
+        problems.append(_missing_ref(row.lamp, lamps, "lamp", f"lamp in enclosure {enc.id!r}",
+                                     **_at(where)))
+    spots = {"floor"} | {s.id for s in enc.surfaces} | {q.id for q in enc.positions}
+    if row.position and row.position not in spots:
+        problems.append(_missing_ref(row.position, spots, "position",
+                                     f"position in enclosure {enc.id!r}", **_at(where)))
+    xyz = [row.x_m, row.y_m, row.z_m]
+    given = [v == v for v in xyz]  # not NaN
+    if any(given) and not all(given):
+        problems.append(InputError("give x_m, y_m and z_m together", field="x_m", **where,
+                                   hint="or leave all three empty and name a position"))
+    elif all(given):
+        box = (enc.width_m, enc.depth_m, enc.height_m)
+        if any(not -1e-9 <= v <= size + 1e-9 for v, size in zip(xyz, box, strict=True)):
+            problems.append(InputError(
+                f"point ({xyz[0]:g}, {xyz[1]:g}, {xyz[2]:g}) m lies outside the enclosure",
+                field="x_m", **where, hint=f"box is {box[0]:g} x {box[1]:g} x {box[2]:g} m; "
+                "origin at the front-left floor corner"))
+    if row.distance_m == row.distance_m and row.distance_m <= 0:
+        problems.append(InputError(f"distance {row.distance_m:g} m is not positive",
+                                   field="distance_m", **where,
+                                   hint="lamp-to-sensor distance in metres"))
     return problems
 
 

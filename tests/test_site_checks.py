@@ -21,19 +21,19 @@ TODAY = dt.date(2026, 12, 1)
 PLANTED = [
     ("site.toml", 9, "site.time_zone", r"unknown time zone 'Europe/Londres'"),
     ("site.toml", 15, "meters[0].calibraton_date", r"unknown key 'calibraton_date'"),
-    ("site.toml", 19, "meters[1].type", r"Input should be 'uv_index_meter'"),
-    ("site.toml", 25, "lamp_models[0].length", r"unit 'lx' is not a unit of length"),
-    ("site.toml", 34, "lamp_models[1].reference.distance", r"unit 'zorks' is not recognised"),
-    ("site.toml", 41, "lamp_models[2].spectrum", r"file 'spectra/not-there.csv' does not exist"),
-    ("site.toml", 56, "enclosures[0].species[0]", r"no species with id 'unknown-lizard'"),
-    ("site.toml", 68, "enclosures[0].lamps[0].model", r"no lamp model with id 'uvb-tube-90cm'"),
-    ("site.toml", 72, "enclosures[0].lamps[0].installed", r"install date 2099-09-01 is in"),
-    ("site.toml", 73, "enclosures[0].lamps[0].schedule", r"no schedule with id 'night'"),
-    ("site.toml", 83, "enclosures[0].lamps[1].failed_emitters", r"no emitter number 9"),
-    ("site.toml", 86, "enclosures[1].id", r"duplicate enclosure id 'viv-1'"),
-    ("site.toml", 93, "enclosures[2].id", r"'Viv 3/../x' is not a safe id"),
-    ("site.toml", 99, "enclosures[3].depth_m", r"required key is missing"),
-    ("site.toml", 102, "enclosures[3].width_m", r"valid number"),
+    ("site.toml", 23, "meters[2].type", r"Input should be 'uv_index_meter'"),
+    ("site.toml", 29, "lamp_models[0].length", r"unit 'lx' is not a unit of length"),
+    ("site.toml", 38, "lamp_models[1].reference.distance", r"unit 'zorks' is not recognised"),
+    ("site.toml", 45, "lamp_models[2].spectrum", r"file 'spectra/not-there.csv' does not exist"),
+    ("site.toml", 60, "enclosures[0].species[0]", r"no species with id 'unknown-lizard'"),
+    ("site.toml", 72, "enclosures[0].lamps[0].model", r"no lamp model with id 'uvb-tube-90cm'"),
+    ("site.toml", 76, "enclosures[0].lamps[0].installed", r"install date 2099-09-01 is in"),
+    ("site.toml", 77, "enclosures[0].lamps[0].schedule", r"no schedule with id 'night'"),
+    ("site.toml", 87, "enclosures[0].lamps[1].failed_emitters", r"no emitter number 9"),
+    ("site.toml", 90, "enclosures[1].id", r"duplicate enclosure id 'viv-1'"),
+    ("site.toml", 97, "enclosures[2].id", r"'Viv 3/../x' is not a safe id"),
+    ("site.toml", 103, "enclosures[3].depth_m", r"required key is missing"),
+    ("site.toml", 106, "enclosures[3].width_m", r"valid number"),
     ("audit.csv", 4, "enclosure", r"no enclosure with id 'viv-9'"),
     ("audit.csv", 5, "lamp", r"no lamp in enclosure 'viv-1' with id 'tube-7'"),
     ("audit.csv", 6, "position", r"no position in enclosure 'viv-1' with id 'shelf'"),
@@ -47,6 +47,10 @@ PLANTED = [
     ("audit.csv", 14, "date", r"'15/01/2026' is not a date in YYYY-MM-DD form"),
     ("audit.csv", 15, "value", r"'two' is not a number"),
     ("audit.csv", 16, None, r"14 fields where the header has 13"),
+    ("audit.csv", 17, "x_m", r"give x_m, y_m and z_m together"),
+    ("audit.csv", 18, "x_m", r"point \(2.4, 0.3, 0.1\) m lies outside the enclosure"),
+    ("audit.csv", 19, "distance_m", r"distance -0.3 m is not positive"),
+    ("audit.csv", 20, "meter", r"a lux_meter does not measure uvi"),
 ]
 
 
@@ -78,7 +82,7 @@ def test_check_command_prints_problems_and_exits_2(capsys):
     """`light-audit check` exits 2 on an invalid site (POSIX usage-error convention)."""
     assert main(["check", str(BROKEN)]) == 2
     err = capsys.readouterr().err
-    assert re.search(r"site\.toml:72: enclosures\[0\]\.lamps\[0\]\.installed: install date", err)
+    assert re.search(r"site\.toml:76: enclosures\[0\]\.lamps\[0\]\.installed: install date", err)
     assert "problem(s) found; nothing was computed" in err
 
 
