@@ -14,6 +14,7 @@ import datetime as dt
 import io
 import math
 import re
+import zipfile
 from os import PathLike
 from pathlib import Path
 
@@ -159,7 +160,7 @@ def read_readings_with_problems(path: str | PathLike) -> tuple[pd.DataFrame, lis
         header, data, header_line = _read_table(path)
     except InputError as exc:
         return _as_frame([]), [exc]
-    except (OSError, UnicodeDecodeError, ValueError, KeyError) as exc:  # unreadable file
+    except (OSError, UnicodeDecodeError, ValueError, KeyError, zipfile.BadZipFile) as exc:
         return _as_frame([]), [InputError(f"cannot read the file: {exc}", path=path,
                                           hint="save it again as UTF-8 CSV or .xlsx")]
     problems: list[InputError] = []

@@ -113,3 +113,11 @@ def test_unsupported_file_type(tmp_path):
     path.write_bytes(b"\xd0\xcf\x11\xe0")
     with pytest.raises(InputErrors, match=r"readings must be \.csv, \.tsv or \.xlsx"):
         read_readings(path)
+
+
+def test_corrupt_spreadsheet_is_an_input_error(tmp_path):
+    """A damaged .xlsx (not a ZIP container, ECMA-376 Part 2) is reported, not a traceback."""
+    path = tmp_path / "r.xlsx"
+    path.write_text("not a spreadsheet")
+    with pytest.raises(InputErrors, match=r"r\.xlsx: cannot read the file: File is not a zip"):
+        read_readings(path)
