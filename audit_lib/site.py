@@ -151,7 +151,11 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     if not toml_path.is_file():
         return None, [InputError(f"no {SITE_FILE} in this folder", path=root,
                                  hint="create one with 'light-audit new-site DIR'")]
-    text = toml_path.read_text(encoding="utf-8")
+    try:
+        text = toml_path.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        return None, [InputError(f"not UTF-8 text ({exc.reason} at byte {exc.start})",
+                                 path=toml_path, hint="save the file as UTF-8")]
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

@@ -200,3 +200,10 @@ def test_site_and_broken_copy_are_independent(tmp_path):
     copy = tmp_path / "copy"
     shutil.copytree(BROKEN, copy)
     assert len(check_site(copy, today=TODAY)) == len(PLANTED)
+
+
+def test_site_file_not_utf8(tmp_path):
+    """TOML files are UTF-8 (TOML v1.0.0, 'Spec'): other encodings are refused clearly."""
+    (tmp_path / "site.toml").write_bytes('name = "Caf\u00e9"\n'.encode("latin-1"))
+    (problem,) = check_site(tmp_path)
+    assert re.search(r"not UTF-8 text", problem.message)
