@@ -89,14 +89,22 @@ def _add_run_parser(subparsers) -> None:
     p.add_argument("--only", nargs="+", metavar="ID", help="audit only these enclosure ids")
     p.add_argument("--audit-date", help="audit date passed to the workbooks (YYYY-MM-DD)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--scenario", metavar="NAME",
+                   help="report a saved what-if scenario (SITE/scenarios/NAME.toml) instead")
     p.set_defaults(handler=_run_run)
 
 
 def _run_run(args) -> int:
     from audit_lib.batch import run_batch
 
-    result = run_batch(args.site, args.out, jobs=args.jobs, only=args.only,
-                       audit_date=args.audit_date, progress=not args.quiet)
+    if args.scenario:
+        from audit_lib.scenarios import run_scenario
+
+        result = run_scenario(args.site, args.scenario, args.out, jobs=args.jobs,
+                              audit_date=args.audit_date, progress=not args.quiet)
+    else:
+        result = run_batch(args.site, args.out, jobs=args.jobs, only=args.only,
+                           audit_date=args.audit_date, progress=not args.quiet)
     for failed in result.failures:
         print(f"could not audit {failed.id}: {failed.error}", file=sys.stderr)
     print(result.index_path)

@@ -492,6 +492,11 @@ def read_scenario(site_root, name: str) -> Scenario:
         if key not in data:
             raise InputError(f"missing key {key!r}", path=path, field=key)
     plan = dict(data["plan"])
+    unknown = sorted(set(plan) - {f.name for f in fields(PlanConfig)})
+    if unknown:
+        raise InputError("unknown plan setting(s): " + ", ".join(unknown), path=path,
+                         field=f"plan.{unknown[0]}",
+                         hint="settings: " + ", ".join(f.name for f in fields(PlanConfig)))
     try:
         config = change_plan(PlanConfig(lamp="", lamp_model="", x_m=0.0, y_m=0.0, z_m=0.0),
                              **plan)
