@@ -25,14 +25,8 @@ except ModuleNotFoundError:  # pragma: no cover - Python 3.10
 
 from audit_lib.errors import InputError, InputErrors
 from audit_lib.readings import read_readings, read_readings_with_problems, readings_files
-from audit_lib.site_checks import (
-    cross_problems,
-    line_of,
-    locate_keys,
-    partial_site,
-    readings_problems,
-    schema_problems,
-)
+from audit_lib.site_checks import cross_problems, partial_site, readings_problems
+from audit_lib.site_errors import line_of, locate_keys, schema_problems
 from audit_lib.site_schema import (
     Enclosure,
     LedArrayModel,

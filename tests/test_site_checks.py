@@ -12,7 +12,7 @@ import pytest
 from audit_lib.cli import main
 from audit_lib.errors import InputErrors
 from audit_lib.site import check_site, load_site, new_site
-from audit_lib.site_checks import locate_keys
+from audit_lib.site_errors import locate_keys
 
 BROKEN = Path(__file__).parent / "data" / "broken_site"
 TODAY = dt.date(2026, 12, 1)
