@@ -197,3 +197,42 @@ def test_site_file_path_is_accepted_for_its_folder(tmp_path):
     """Giving site.toml instead of its folder loads the same site (common practice)."""
     new_site(tmp_path)
     assert load_site(tmp_path / "site.toml").records == load_site(tmp_path).records
+
+
+def _keys(value, skip=("time_budget",)):
+    if isinstance(value, dict):
+        for key, item in value.items():
+            yield key
+            if key not in skip:
+                yield from _keys(item)
+    elif isinstance(value, list):
+        for item in value:
+            yield from _keys(item)
+
+
+def test_docs_examples_parse_and_use_only_known_keys():
+    """Every TOML example in docs/site-format.md parses (TOML v1.0.0) and uses only keys the
+    schema knows (SI keys or their unit-string stems), so the documentation cannot drift."""
+    import re
+
+    import audit_lib.site_schema as schema
+
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+
+    known = set()
+    for record in vars(schema).values():
+        if isinstance(record, type) and issubclass(record, schema.Record):
+            for name in record.model_fields:
+                known.add(name)
+                for suffix in schema.UNIT_SUFFIXES:
+                    if name.endswith(suffix):
+                        known.add(name[: -len(suffix)])
+    text = (Path(__file__).resolve().parent.parent / "docs" / "site-format.md").read_text()
+    blocks = re.findall(r"```toml\n(.*?)```", text, re.S)
+    assert len(blocks) >= 10
+    for block in blocks:
+        unknown = set(_keys(tomllib.loads(block))) - known
+        assert not unknown, (unknown, block[:60])
