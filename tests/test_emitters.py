@@ -171,8 +171,10 @@ def test_flux_for_reading_uses_inverse_square_law_on_axis():
     scaled = flux_for_reading(e, 3.0, 0.3, "uvi")
     assert weigh_emitter(scaled)["uvi"] / 0.3**2 == pytest.approx(3.0, rel=1e-12)
     s = emitter_spectrum(scaled, 0.3)
-    flux = np.trapezoid(s.irradiance_w_m2_nm, s.wavelength_nm) * 0.3**2 * pattern_solid_angle(
-        lambertian_order(60)
+    flux = (
+        np.trapezoid(s.irradiance_w_m2_nm, s.wavelength_nm)
+        * 0.3**2
+        * pattern_solid_angle(lambertian_order(60))
     )
     assert flux == pytest.approx(scaled.radiant_flux_w, rel=1e-9)
     with pytest.raises(InputError, match="unknown quantity 'uvx'"):
