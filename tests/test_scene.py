@@ -356,3 +356,38 @@ def test_measured_lamp_from_readings_table():
     bad = MeasuredLamp("m", (0.2, 0.3), (2.0, 1.0), quantity="UVI")
     with pytest.raises(InputError, match="unknown quantity 'UVI' for the readings of lamp 'm'"):
         lamp_sources(bad)
+
+
+def test_incidence_angle_is_the_geometric_angle():
+    """With one point source, the mean incidence angle is the angle between the surface normal
+    and the ray (geometry): 0 below the lamp, 45 deg at a lateral offset equal to the height."""
+    lamp = PointLamp("compact", FLAT, radiant_flux_w=1.0)
+    enc = _box(PlacedLamp(lamp, 1.0, 1.0, 0.5))
+    pv = point_values(enc, {"below": (1.0, 1.0, 0.0), "off": (1.5, 1.0, 0.0)}, ("uvb_w_m2",))
+    assert pv["incidence_deg"].tolist() == pytest.approx([0.0, 45.0], abs=1e-6)
+
+
+def test_reflector_acts_only_in_front_of_the_lamp():
+    """The reflector factor multiplies intensity in the lamp's front half-space only: a tube
+    turned to shine sideways (tilt 90 deg) lights the floor below it like a bare tube."""
+    bare = TubeLamp("t", 0.6, FLAT, radiant_flux_w=1.0)
+    shiny = TubeLamp("t", 0.6, FLAT, radiant_flux_w=1.0, reflector_factor=2.0)
+    sideways = [_box(PlacedLamp(t, 1.0, 1.0, 0.5, tilt_deg=90.0)) for t in (bare, shiny)]
+    behind = [_at(enc, 1.0, 0.7, 0.0) for enc in sideways]  # ray goes to -y: behind the front
+    front = [_at(enc, 1.0, 1.3, 0.0) for enc in sideways]  # ray goes to +y: in front
+    assert behind[1] == pytest.approx(behind[0], rel=1e-12)
+    assert front[1] == pytest.approx(2 * front[0], rel=1e-12)
+
+
+def test_lamp_spectrum_matches_the_map_in_the_far_field():
+    """Beyond about five times its size a lamp acts as a point source (lighting handbooks,
+    'five-times rule'): the map below the bar at 2 m matches its far-field spectrum within 1 %."""
+    from audit_lib.emitters import weigh_spectral
+
+    bar = _demo_bar()
+    enc = Enclosure("tall", 3.0, 3.0, 3.0, lamps=(PlacedLamp(bar, 1.5, 1.5, 2.2),))
+    far = lamp_spectrum(bar, 2.0)
+    want = weigh_spectral(far.wavelength_nm, far.irradiance_w_m2_nm)
+    got = point_values(enc, {"p": (1.5, 1.5, 0.2)})
+    for q in ("uvi", "illuminance_lux"):
+        assert got[q].iloc[0] == pytest.approx(want[q], rel=0.01)
