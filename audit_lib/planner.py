@@ -393,7 +393,7 @@ class WhatIfPlanner:
             integrate_time_budget,
             uvi_series,
         )
-        from audit_lib.photoperiod import daily_profiles
+        from audit_lib.photoperiod import DAY_S, daily_profiles
 
         record = site.enclosure(self.enclosure_id)
         if not record.lamps:
@@ -404,8 +404,8 @@ class WhatIfPlanner:
         daily = uvi_series(uvi_peak, profiles)
         dose = integrate_daily_dose(uvi_peak, profiles, vitamin_d_w_m2_full=vitd_peak,
                                     uvi_range=max_range)
-        hours = float((profiles.to_numpy() > 0).any(axis=1).sum()
-                      * (profiles.index[1] - profiles.index[0]))
+        lit_steps = int((profiles.to_numpy() > 0).any(axis=1).sum())
+        hours = lit_steps * (DAY_S / len(profiles)) / 3600.0  # whole steps: 14 h is 14.0
         mean_uvi = None
         budget = dict(record.time_budget)
         if budget:
