@@ -43,7 +43,8 @@ REPORTS_DIR = "reports"
 CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "value", "unit",
                "target_low", "target_high", "state", "reason", "error")
 _CHECK_KEYS = ("name", "value", "unit", "target_low", "target_high", "state", "reason")
-_WARM_UP = "import audit_lib.audit, audit_lib.report, matplotlib.pyplot, pandas"
+_WARM_UP = ("import audit_lib.audit, audit_lib.report.enclosure, audit_lib.report.audit_figures, "
+            "audit_lib.report.spectrum, matplotlib.pyplot, pandas, scipy.optimize, colour, pvlib")
 _WORKER: dict = {}
 
 
@@ -138,9 +139,10 @@ def _init_worker(warm_up: str) -> None:
 
     kernel = WarmKernel(warm_up=warm_up)
     _WORKER["kernel"] = kernel
-    _WORKER["exporter"] = make_exporter()
     kernel.ensure_started()
     Finalize(kernel, kernel.shutdown, exitpriority=10)  # runs when the worker process ends
+    if "exporter" not in _WORKER:  # inherited from the main process when forked
+        _WORKER["exporter"] = make_exporter()
 
 
 def _first_line(text: str) -> str:
@@ -283,6 +285,12 @@ def _execute(tasks: list[dict], jobs: int, progress: bool) -> list[dict]:
 
     method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
     context = multiprocessing.get_context(method)
+    if method == "fork":  # import and compile once here; every worker inherits them
+        import papermill  # noqa: F401
+
+        from audit_lib.notebooks import make_exporter
+
+        _WORKER.setdefault("exporter", make_exporter())
     done: list[dict] = []
     with ProcessPoolExecutor(max_workers=jobs, mp_context=context, initializer=_init_worker,
                              initargs=(_WARM_UP,)) as pool:

@@ -37,7 +37,7 @@ def plot_maps(audit, quantity: str = "uvi"):
     n = len(maps)
     cols = min(3, n)
     rows = math.ceil(n / cols)
-    fig, axes = plt.subplots(rows, cols, figsize=(3.0 * cols + 0.8, 2.8 * rows), dpi=110,
+    fig, axes = plt.subplots(rows, cols, figsize=(3.0 * cols + 0.8, 2.8 * rows), dpi=96,
                              layout="constrained", squeeze=False)
     vmax = max(float(np.nanmax(m.values[quantity])) for m in maps) or 1.0
     image = None

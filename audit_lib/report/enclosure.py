@@ -141,13 +141,19 @@ def actions_list(audit) -> HTMLBlock:
 
 
 def surface_table(audit) -> pd.DataFrame:
-    """UV Index statistics per surface (maximum, mean, minimum, shares)."""
-    t = audit.surface_stats
-    t = t[t["quantity"] == "uvi"].drop(columns="quantity")
+    """Per surface: UV Index statistics, shares, mean vitamin-D irradiance and illuminance."""
+    stats = audit.surface_stats
+    t = stats[stats["quantity"] == "uvi"].drop(columns="quantity")
     t = t.assign(share_in_uvi_range_pct=100 * t.pop("share_in_uvi_range"),
                  share_refuge_pct=100 * t.pop("share_refuge"))
-    return t.rename(columns={"maximum": "max_uvi", "mean": "mean_uvi", "minimum": "min_uvi"}) \
-        .round(2).set_index("surface")
+    t = t.rename(columns={"maximum": "max_uvi", "mean": "mean_uvi", "minimum": "min_uvi"})
+    for quantity, column in (("vitamin_d_w_m2", "mean_vitamin_d_w_m2"),
+                             ("illuminance_lux", "mean_illuminance_lux")):
+        means = stats[stats["quantity"] == quantity].set_index("surface")["mean"]
+        t[column] = t["surface"].map(means)
+    return t.round({"max_uvi": 2, "mean_uvi": 2, "min_uvi": 2, "uniformity": 2, "area_m2": 3,
+                    "share_in_uvi_range_pct": 0, "share_refuge_pct": 0,
+                    "mean_vitamin_d_w_m2": 4, "mean_illuminance_lux": 0}).set_index("surface")
 
 
 def points_table(audit) -> pd.DataFrame:
