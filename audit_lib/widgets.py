@@ -23,12 +23,12 @@ _DPI = 80
 
 
 def _nice_top(value: float) -> float:
-    """Round an axis top up to 1, 2 or 5 times a power of ten (fewer full redraws)."""
+    """Round an axis top up to 1, 1.5, 2, 3, 5 or 7.5 times a power of ten (fewer redraws)."""
     import math
 
     value = max(float(value), 1e-9)
     base = 10 ** math.floor(math.log10(value))
-    return next(m * base for m in (1, 2, 5, 10) if m * base >= value)
+    return next(m * base for m in (1, 1.5, 2, 3, 5, 7.5, 10) if m * base >= value)
 
 
 class _Blitter:
@@ -83,8 +83,8 @@ class MapView:
 
         from audit_lib.report.style import MAP_COLORMAP, PALETTE
 
-        self.fig = Figure(figsize=(6.4, 4.2), dpi=_DPI)
-        self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.11, top=0.92)
+        self.fig = Figure(figsize=(6.4, 4.4), dpi=_DPI)
+        self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.2, top=0.92)
         FigureCanvasAgg(self.fig)
         self.blitter = _Blitter(self.fig)
         self._full = True
@@ -106,6 +106,7 @@ class MapView:
         ax.set_xlabel("across, x [m]")
         ax.set_ylabel("front to back, y [m]")
         self.colorbar = self.fig.colorbar(next(iter(self.images.values())), ax=ax, shrink=0.85,
+                                          extend="max",
                                           label="UV Index [-] (at each surface's height)")
         (self.lamp_marker,) = ax.plot([], [], marker="s", color=PALETTE["orange"],
                                       markeredgecolor="black", linestyle="none",
@@ -114,17 +115,19 @@ class MapView:
                                       color=PALETTE["vermillion"], markeredgecolor="black",
                                       linestyle="none", label="basking maximum")
         self.contours = []
-        self.legend = ax.legend(loc="upper right", fontsize="x-small", framealpha=0.8)
+        self.legend = ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.13), ncol=2,
+                                fontsize="x-small", frameon=False)
         ax.set_title("UV Index at each surface's height; lines: zone maximum range",
                      fontsize="small")
         self.update(result, scene)
 
     def update(self, result: PlanResult, scene) -> None:
         """Change the artists to show ``result`` (images, colour limits, contours, markers)."""
-        top = max(1.0, max(float(m.values["uvi"].max()) for m in result.maps.values()))
-        if result.zone is not None:
-            top = max(top, result.zone.max_uvi_high * 1.1)
-        top = _nice_top(top)
+        if result.zone is not None:  # one colour scale per zone: colours stay comparable
+            top = _nice_top(result.zone.max_uvi_high * 1.25)
+        else:
+            top = _nice_top(max(1.0, *(float(m.values["uvi"].max())
+                                       for m in result.maps.values())))
         for name, image in self.images.items():
             image.set_data(result.maps[name].values["uvi"])
             if image.get_clim()[1] != top:
@@ -149,7 +152,7 @@ class MapView:
     def png(self) -> bytes:
         """The figure rendered to PNG (only the changing artists are redrawn)."""
         dynamic = [*self.images.values(), *self.ax.patches, *self.ax.texts, *self.contours,
-                   self.lamp_marker, self.peak_marker, *self.ax.spines.values(), self.legend]
+                   self.lamp_marker, self.peak_marker, *self.ax.spines.values()]
         full, self._full = self._full, False
         return self.blitter.render(dynamic, full=full)
 
@@ -163,7 +166,11 @@ def _rectangle(surface, colour):
 
 
 class DailyView:
-    """UV Index at the basking maximum through the day, with the zone's bands and the sun."""
+    """UV Index at the basking maximum through the day, with the zone's bands and the sun.
+
+    The legend sits outside the axes and never changes, so it stays in the kept background;
+    the two bands are moved, not replaced.
+    """
 
     def __init__(self, result: PlanResult):
         from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -172,43 +179,46 @@ class DailyView:
         from audit_lib.report.style import PALETTE
 
         self.fig = Figure(figsize=(6.4, 3.0), dpi=_DPI)
-        self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.16, top=0.95)
+        self.fig.subplots_adjust(left=0.1, right=0.7, bottom=0.16, top=0.95)
         FigureCanvasAgg(self.fig)
         self.blitter = _Blitter(self.fig)
         self._full = True
-        self.legend = None
         ax = self.ax = self.fig.add_subplot()
+        self.bands = [
+            ax.axhspan(0, 0, facecolor=PALETTE["sky blue"], alpha=0.18, hatch="//",
+                       edgecolor=PALETTE["sky blue"], linewidth=0,
+                       label="zone's maximum range"),
+            ax.axhspan(0, 0, facecolor=PALETTE["bluish green"], alpha=0.25, hatch="..",
+                       edgecolor=PALETTE["bluish green"], linewidth=0,
+                       label="zone's mean range"),
+        ]
         (self.sun_line,) = ax.plot([], [], color=PALETTE["black"], linestyle=(0, (5, 3)),
-                                   linewidth=1.2, label="sun, clear sky (scaled)")
+                                   linewidth=1.2, label="sun, clear sky\n(peak scaled to the\n"
+                                   "middle of the maximum)")
         (self.lamp_line,) = ax.plot([], [], color=PALETTE["blue"], linewidth=2.0,
                                     label="basking maximum")
-        self.bands = []
         ax.set_xlim(0, 24)
         ax.set_xticks(range(0, 25, 3))
         ax.set_xlabel("local time [h]")
         ax.set_ylabel("UV Index [-]")
         ax.grid(True, color="#dddddd", linewidth=0.6)
+        self.legend = ax.legend(loc="upper left", bbox_to_anchor=(1.02, 1.0), fontsize="x-small",
+                                frameon=False)
         self.update(result)
 
     def update(self, result: PlanResult) -> None:
-        """Change the curves and the target bands."""
+        """Move the target bands and change the curves."""
         from audit_lib.report.daily import sun_scale_for_zone
-        from audit_lib.report.style import PALETTE
 
-        for b in self.bands:
-            b.remove()
-        self.bands = []
         top = 1.0
         zone = result.zone
+        spans = ((zone.max_uvi_low, zone.max_uvi_high), (zone.mean_uvi_low, zone.mean_uvi_high)) \
+            if zone is not None else ((0.0, 0.0), (0.0, 0.0))
+        for band, (low, high) in zip(self.bands, spans, strict=True):
+            band.set_y(low)
+            band.set_height(high - low)
+            band.set_visible(zone is not None)
         if zone is not None:
-            self.bands.append(self.ax.axhspan(
-                zone.max_uvi_low, zone.max_uvi_high, facecolor=PALETTE["sky blue"], alpha=0.18,
-                hatch="//", edgecolor=PALETTE["sky blue"], linewidth=0,
-                label=f"zone {zone.zone} maximum"))
-            self.bands.append(self.ax.axhspan(
-                zone.mean_uvi_low, zone.mean_uvi_high, facecolor=PALETTE["bluish green"],
-                alpha=0.25, hatch="..", edgecolor=PALETTE["bluish green"], linewidth=0,
-                label=f"zone {zone.zone} mean"))
             top = zone.max_uvi_high
         sun = result.sun
         scale = sun_scale_for_zone(sun["uvi"], zone) if zone is not None else 1.0
@@ -223,12 +233,11 @@ class DailyView:
         if self.ax.get_ylim()[1] != top:
             self.ax.set_ylim(0, top)
             self._full = True
-        self.legend = self.ax.legend(loc="upper left", fontsize="x-small", framealpha=0.8)
 
     def png(self) -> bytes:
         """The figure rendered to PNG (only the changing artists are redrawn)."""
-        dynamic = [*self.bands, self.sun_line, self.lamp_line, *self.ax.spines.values(),
-                   self.legend]
+        dynamic = [b for b in self.bands if b.get_visible()]
+        dynamic += [self.sun_line, self.lamp_line, *self.ax.spines.values()]
         full, self._full = self._full, False
         return self.blitter.render(dynamic, full=full)
 

@@ -90,10 +90,17 @@ def main(rounds: int = 3) -> None:
                     continue
                 compute.append(t["compute_ms"])
                 redraw.append(t["redraw_ms"])
-                by_kind.setdefault(kind, []).append(t["compute_ms"] + t["redraw_ms"])
+                by_kind.setdefault(kind, []).append((t["compute_ms"], t["redraw_ms"]))
     print(f"compute_ms={statistics.median(compute):.1f} redraw_ms={statistics.median(redraw):.1f}")
+    both = [c + r for c, r in zip(compute, redraw, strict=True)]
+    print(f"  compute+redraw median {statistics.median(both):.1f} ms, "
+          f"slowest {max(both):.1f} ms")
     for kind, values in by_kind.items():
-        print(f"  {kind}: compute+redraw median {statistics.median(values):.1f} ms")
+        c = statistics.median(v[0] for v in values)
+        r = statistics.median(v[1] for v in values)
+        print(f"  {kind}: compute {c:.1f} ms, redraw {r:.1f} ms (medians)")
+    load = os.getloadavg()[0] if hasattr(os, "getloadavg") else float("nan")
+    print(f"  machine load average {load:.1f} on {os.cpu_count()} CPUs (wall-clock times)")
     print(f"  emitters={n} grid=200x200 changes={len(compute)} (every height, position and "
           "beam change is a new placement: maps recomputed)")
 
