@@ -1,0 +1,148 @@
+"""The orchestrator and the site-to-scene translation, against outside references.
+
+Sources named in each test: the WHO 2002 UV Index definition (1 UVI = 25 mW m-2 erythemal)
+and the CIE standard erythema dose (1 SED = 100 J m-2); the Madronich (2007) clear-sky
+formula with solar zenith angles from pvlib's SPA (an independent reference library); the
+handbook aspect-factor formula of a finite line source; linearity of weighted quantities in
+irradiance (CIE action-spectrum weighting); numpy's trapezoid rule.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from audit_lib.assemble import bands_spectrum, build_scene, failed_labels
+from audit_lib.audit import audit_enclosure, choose_audit_date, open_enclosure
+from audit_lib.errors import InputError
+from audit_lib.scene import compute_maps, evaluate_points
+from audit_lib.site import load_site, new_site
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "sample_sites" / "kestrel-moor-wildlife-park"
+SMALL = ROOT / "sample_sites" / "ashdown-private-collection"
+
+
+@pytest.fixture(scope="module")
+def small():
+    return load_site(SMALL)
+
+
+@pytest.fixture(scope="module")
+def dragon(small):
+    return audit_enclosure(small, small.records.enclosures[0].id)
+
+
+def test_bands_spectrum_has_unit_area_and_its_peak():
+    """numpy trapezoid rule: the modelled spectral shape integrates to 1; one band peaks at
+    its stated wavelength."""
+    from audit_lib.site_schema import Band
+
+    spectrum = bands_spectrum([Band(peak_nm=313, fwhm_nm=30, share=1.0)], "one band")
+    assert np.trapezoid(spectrum.irradiance_w_m2_nm, spectrum.wavelength_nm) == \
+        pytest.approx(1.0, rel=1e-9)
+    assert spectrum.wavelength_nm[np.argmax(spectrum.irradiance_w_m2_nm)] == \
+        pytest.approx(313, abs=0.5)
+
+
+def test_tube_reproduces_its_reference_reading(tmp_path):
+    """Lighting handbooks' aspect factor for a finite line source: the tube built from the
+    site file gives its rated UV Index at the reference distance below its middle (screens
+    removed), i.e. the reference scaling and the line-source model agree."""
+    new_site(tmp_path / "site")
+    site = load_site(tmp_path / "site")
+    place = site.records.enclosures[0].lamps[0]
+    reference = site.lamp_model(place.model).reference
+    scene = replace(build_scene(site, "viv-1"), screens=())
+    point = np.array([[place.x_m, place.y_m, place.z_m - reference.distance_m]])
+    uvi = evaluate_points(scene, point, ("uvi",)).values["uvi"][0]
+    assert uvi == pytest.approx(reference.uvi, rel=0.02)
+
+
+def test_calibration_matches_a_single_reading(tmp_path):
+    """Weighted quantities are linear in irradiance (CIE weighting), so one scale factor maps
+    the model onto the audit's reading exactly at the measured place."""
+    new_site(tmp_path / "site")
+    readings = next((tmp_path / "site" / "readings").glob("*.csv"))
+    lines = readings.read_text().splitlines()
+    header = next(i for i, line in enumerate(lines) if line.startswith("date,"))
+    readings.write_text("\n".join(lines[: header + 2]) + "\n")  # keep one reading
+    site = load_site(tmp_path / "site")
+    audit = audit_enclosure(site, "viv-1")
+    points = audit.points.set_index("position")
+    measured = points["measured_uvi"].dropna()
+    assert len(measured) == 1
+    ratios = points.loc[measured.index, "modelled_uvi"] / measured
+    assert float(np.median(ratios)) == pytest.approx(1.0, rel=1e-9)
+    raw = compute_maps(audit.scene, spacing_m=0.02)
+    assert audit.maps["floor"].values["uvi"].max() == \
+        pytest.approx(audit.calibration * raw["floor"].values["uvi"].max(), rel=1e-6)
+
+
+def test_daily_dose_follows_the_uv_index_definition(dragon):
+    """WHO 2002: 1 UVI = 0.025 W m-2 erythemal; CIE: 1 SED = 100 J m-2. The basking dose is
+    the integral of the day's UV Index curve at the basking maximum."""
+    curve = dragon.daily["enclosure_uvi"]
+    step_s = (curve.index[1] - curve.index[0]) * 3600.0
+    erythemal = float(curve.sum()) * 0.025 * step_s
+    assert dragon.basking_dose.erythemal_j_m2 == pytest.approx(erythemal, rel=0.03)
+    assert dragon.basking_dose.sed == pytest.approx(dragon.basking_dose.erythemal_j_m2 / 100.0)
+
+
+def test_sun_reference_against_pvlib_and_madronich(small, dragon):
+    """Madronich (2007): UVI = 12.5 cos(SZA)^2.42 at 300 DU; the zenith from pvlib's SPA at
+    the curve's peak time on the audit day at the site."""
+    pvlib = pytest.importorskip("pvlib")
+    import pandas as pd
+
+    info = small.records.site
+    peak_h = float(dragon.daily["sun_uvi"].idxmax())
+    when = pd.Timestamp(dragon.audit_date.isoformat(), tz=info.time_zone) + \
+        pd.Timedelta(hours=peak_h)
+    sza = float(pvlib.solarposition.get_solarposition(
+        pd.DatetimeIndex([when]), info.latitude_deg, info.longitude_deg)["apparent_zenith"].iloc[0])
+    assert dragon.natural["peak_uvi"] == \
+        pytest.approx(12.5 * math.cos(math.radians(sza)) ** 2.42, rel=0.03)
+
+
+def test_checks_use_the_maps(dragon):
+    """The basking check's figure is the highest UV Index over the basking surfaces."""
+    basking = [m for m in dragon.maps.values() if m.surface.kind == "basking"]
+    check = next(c for c in dragon.checks if c.name == "basking UV Index maximum")
+    assert check.value == pytest.approx(max(float(m.values["uvi"].max()) for m in basking))
+    assert dragon.verdict in ("meets targets", "needs attention", "not enough data")
+
+
+@pytest.mark.slow
+def test_failed_emitter_lowers_the_map():
+    """Superposition: with an emitter the site marks failed, the map is the full map minus
+    that emitter's share (never higher anywhere)."""
+    site = load_site(DEMO)
+    enclosure = next(e.id for e in site.records.enclosures
+                     if any(p.failed_emitters for p in e.lamps))
+    scene = build_scene(site, enclosure)
+    failed = failed_labels(site, enclosure)
+    assert failed and all("/" in f for f in failed)
+    full = compute_maps(scene, spacing_m=0.03)
+    out = compute_maps(scene, spacing_m=0.03, failed=failed)
+    for name in full:
+        assert np.all(out[name].values["uvi"] <= full[name].values["uvi"] + 1e-12)
+    assert sum(out[n].values["uvi"].sum() for n in out) < \
+        sum(full[n].values["uvi"].sum() for n in full)
+
+
+def test_parameters_are_checked(small):
+    """Bad workbook parameters are named with a hint (messages pinned)."""
+    with pytest.raises(InputError, match="no enclosure 'nope'.*enclosures: dragon-viv"):
+        open_enclosure(SMALL, "nope")
+    with pytest.raises(InputError, match="map spacing 5 m is outside"):
+        open_enclosure(SMALL, spacing_m=5)
+    with pytest.raises(InputError, match="audit date '2026-13-01' is not a date"):
+        choose_audit_date(small, "2026-13-01")
+    assert choose_audit_date(small, "2026-01-02") == dt.date(2026, 1, 2)
+    assert choose_audit_date(small) == max(small.records.site.audit_dates)
