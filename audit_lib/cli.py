@@ -53,15 +53,16 @@ def _add_check_parser(subparsers) -> None:
 
 
 def _run_check(args) -> int:
-    from audit_lib.site import check_site, load_site, summarise_site
+    from audit_lib.site import load_site, summarise_site
 
-    problems = check_site(args.site)
-    if problems:
-        for problem in problems:
+    try:
+        site = load_site(args.site)
+    except InputErrors as exc:
+        for problem in exc.problems:
             print(problem, file=sys.stderr)
-        print(f"{len(problems)} problem(s) found; nothing was computed", file=sys.stderr)
+        print(f"{len(exc.problems)} problem(s) found; nothing was computed", file=sys.stderr)
         return 2
-    print(summarise_site(load_site(args.site)))
+    print(summarise_site(site))
     return 0
 
 

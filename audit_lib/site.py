@@ -12,6 +12,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 import shutil
+import warnings
 from dataclasses import dataclass, field
 from os import PathLike
 from pathlib import Path
@@ -23,9 +24,14 @@ try:  # Python >= 3.11
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 
-from audit_lib.errors import InputError, InputErrors
+from audit_lib.errors import AuditWarning, InputError, InputErrors
 from audit_lib.readings import read_readings, read_readings_with_problems, readings_files
-from audit_lib.site_checks import cross_problems, partial_site, readings_problems
+from audit_lib.site_checks import (
+    calibration_warnings,
+    cross_problems,
+    partial_site,
+    readings_problems,
+)
 from audit_lib.site_errors import line_of, locate_keys, schema_problems
 from audit_lib.site_schema import (
     Enclosure,
@@ -40,6 +46,10 @@ from audit_lib.site_schema import (
 )
 
 SITE_FILE = "site.toml"
+
+
+class SiteWarning(AuditWarning):
+    """A valid site with something to attend to (e.g. a meter overdue for calibration)."""
 LampModelRecord = LedArrayModel | TubeModel | PointLampModel | MeasuredLampModel
 
 
@@ -178,6 +188,8 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     problems += readings_problems(readings, checked, root, today, dropped)
     if problems or records is None:
         return None, problems
+    for text in calibration_warnings(readings, records):
+        warnings.warn(text, SiteWarning, stacklevel=3)
     return Site(root=root, records=records, readings=readings), []
 
 

@@ -302,3 +302,31 @@ def _place_problems(row, enc, where: dict) -> list[InputError]:
 def _at(where: dict) -> dict:
     """Adapt a readings location to ``_missing_ref``'s (path, lines) arguments."""
     return {"path": where["path"], "lines": {}, "line": where["line"]}
+
+
+#: A meter calibrated longer ago than this before a reading gets a warning [days]
+#: (yearly calibration is common practice for handheld UV meters).
+CALIBRATION_MAX_AGE_DAYS = 365
+
+
+def calibration_warnings(readings: pd.DataFrame, site: SiteFile) -> list[str]:
+    """Meters used more than a year after their calibration, or with no calibration date.
+
+    Returns
+    -------
+    list of str
+        One sentence per meter (the readings themselves are kept).
+    """
+    out = []
+    for meter in _live(site.meters):
+        used = readings.loc[readings["meter"] == meter.id, "date"]
+        if used.empty:
+            continue
+        last = used.max().date()
+        if meter.calibration_date is None:
+            out.append(f"meter {meter.id!r} has no calibration date; readings up to {last} "
+                       "rest on an unknown calibration")
+        elif (last - meter.calibration_date).days > CALIBRATION_MAX_AGE_DAYS:
+            out.append(f"meter {meter.id!r} was calibrated on {meter.calibration_date}, more "
+                       f"than a year before its readings of {last}; have it recalibrated")
+    return out

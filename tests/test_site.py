@@ -236,3 +236,17 @@ def test_docs_examples_parse_and_use_only_known_keys():
     for block in blocks:
         unknown = set(_keys(tomllib.loads(block))) - known
         assert not unknown, (unknown, block[:60])
+
+
+def test_meter_overdue_for_calibration_warns(tmp_path):
+    """A meter used more than a year after calibration gets a warning, not an error (yearly
+    calibration of handheld UV meters: common practice)."""
+    from audit_lib.site import SiteWarning
+
+    new_site(tmp_path)
+    path = tmp_path / "site.toml"
+    path.write_text(path.read_text().replace("calibration_date = 2025-06-01",
+                                             "calibration_date = 2024-06-01"))
+    with pytest.warns(SiteWarning, match=r"meter 'uvi-meter' was calibrated on 2024-06-01, more "
+                                         r"than a year before its readings of 2026-01-15"):
+        load_site(tmp_path)
