@@ -82,8 +82,12 @@ class EnclosureAudit:
         Overall state and its reason (the worst of the species' verdicts).
     failures : pandas.DataFrame
         LED emitter failure scenarios (empty when there are no LED arrays).
+    failure_study : MonteCarloResult or None
+        Random emitter failures on the basking surface (:mod:`audit_lib.failures`).
     lamps : pandas.DataFrame
         Lamp ages, decay fits and replacement forecasts.
+    decays : list of LampDecay
+        Per lamp with readings: points, fit and forecast (:func:`decay.analyse_lamp_decay`).
     spectra : dict of str to dict
         Lamp model id to :func:`audit_lib.metrics.spectrum_metrics`.
     lamp_spectra : dict of str to Spectrum
@@ -118,7 +122,9 @@ class EnclosureAudit:
     verdict: str = ""
     reason: str = ""
     failures: pd.DataFrame | None = None
+    failure_study: object = None
     lamps: pd.DataFrame | None = None
+    decays: list = field(default_factory=list)
     spectra: dict = field(default_factory=dict)
     lamp_spectra: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
@@ -288,7 +294,7 @@ def _places(record, scene):
 
 
 def _lamp_table(site, record, audit_date, threshold):
-    from audit_lib.decay import replacement_schedule
+    from audit_lib.decay import analyse_lamp_decay, replacement_schedule
     from audit_lib.forecast import schedule_daily_hours
 
     installs = pd.DataFrame([{
@@ -297,12 +303,14 @@ def _lamp_table(site, record, audit_date, threshold):
         "daily_hours": p.daily_hours if p.daily_hours is not None else
         schedule_daily_hours(site.schedule(p.schedule))} for p in record.lamps])
     if installs.empty:
-        return installs
+        return installs, []
     readings = site.readings_of(record.id)
     table = replacement_schedule(readings, installs, threshold, today=audit_date)
     table.insert(4, "age_days", [(pd.Timestamp(audit_date) - t).days
                                  for t in table["installed_on"]])
-    return table.reset_index(drop=True)
+    decays = [analyse_lamp_decay(readings, installs, record.id, p.id, threshold,
+                                 today=audit_date) for p in record.lamps]
+    return table.reset_index(drop=True), [d for d in decays if d is not None and len(d.points)]
 
 
 def _spectra(site, record, scene):
@@ -395,7 +403,8 @@ def _failure_table(scene, surface, failed, uvi_range, calibration, probability, 
              "share_in_range": s.statistics.share_in_uvi_range} for s in scenarios]
     mc = monte_carlo_failures(scene, surface, (lo, hi), probability, n_trials=2000,
                               seed=seed, shape=(12, 12))
-    return pd.DataFrame(rows), mc
+    # shares are the same for the calibrated range; label the study with the zone's range
+    return pd.DataFrame(rows), replace(mc, uvi_range=tuple(uvi_range))
 
 
 def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
@@ -453,6 +462,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     from audit_lib.dose import monthly_table as dose_monthly_table
     from audit_lib.photoperiod import daily_profiles
     from audit_lib.scene import compute_maps, point_values, statistics_table
+    from audit_lib.site_checks import calibration_warnings
     from audit_lib.sunlight import clear_sky_daily_dose_sed, clear_sky_uvi_day
     from audit_lib.verdicts import ATTENTION, MEETS, assess_enclosure
 
@@ -465,6 +475,8 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     zone = zones[max(s.zone for s in species)] if species else None
     notes = [f"Species {s!r} is in neither the site's nor the library's species table."
              for s in record.species if s not in known]
+    notes += [text[0].upper() + text[1:] + "." for text in
+              calibration_warnings(site.readings_of(enclosure_id), site.records)]
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
 
     scene = build_scene(site, enclosure_id)
@@ -547,7 +559,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     short = [m["short_uvb_fraction"] for m in spectra.values()
              if m.get("uvb_w_m2", 0) > 0 and math.isfinite(m.get("short_uvb_fraction", math.nan))]
     keeper = _keeper_limit(scene, record, failed)
-    lamps = _lamp_table(site, record, day, zone.max_uvi_low if zone else math.nan)
+    lamps, decays = _lamp_table(site, record, day, zone.max_uvi_low if zone else math.nan)
     replace_by = None
     if lamps is not None and len(lamps) and lamps["replace_by"].notna().any():
         replace_by = pd.Timestamp(lamps["replace_by"].dropna().min()).date()
@@ -596,7 +608,8 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
         species=species, zone=zone, scene=scene, calibration=calibration, maps=maps,
         surface_stats=stats, points=points, daily=daily, basking_dose=basking_dose,
         animal_dose=animal, monthly=monthly, natural=natural, verdicts=verdicts,
-        verdict=verdict, reason=reason, failures=failures, lamps=lamps, spectra=spectra,
+        verdict=verdict, reason=reason, failures=failures, failure_study=monte_carlo,
+        lamps=lamps, decays=decays, spectra=spectra,
         lamp_spectra=lamp_spectra, notes=notes,
         provenance=_provenance(site, enclosure_id, spacing_m, day))
 
