@@ -471,8 +471,33 @@ class LampDecay:
     state: str
 
 
+def _target_at_check_position(points: pd.DataFrame, enclosure_readings, target: float,
+                              quantity: str) -> float:
+    """Move a basking-area target to the scale of a lamp's own check readings.
+
+    When a lamp is checked alone at its own position (several lamps light the basking
+    area), its target is ``target × check / basking`` with the check and the enclosure's
+    basking reading of the latest audit day, assuming the basking UV Index scales with the
+    lamp's output (true when the lamps decay alike; common practice). Unchanged when the
+    points are basking readings or no basking reading shares the day.
+    """
+    if (enclosure_readings is None or not len(points) or not math.isfinite(target)
+            or points["position"].iloc[-1] == "basking"):
+        return target
+    last_day = points["date"].iloc[-1]
+    same_day = enclosure_readings[
+        (enclosure_readings["quantity"] == quantity)
+        & (enclosure_readings["position"].fillna("") == "basking")
+        & (pd.to_datetime(enclosure_readings["date"]) == last_day)]
+    basking = float(same_day["value_si"].mean()) if len(same_day) else math.nan
+    if not (math.isfinite(basking) and basking > 0):
+        return target
+    return target * float(points["value"].iloc[-1]) / basking
+
+
 def analyse_lamp_decay(readings: pd.DataFrame, installs: pd.DataFrame, enclosure: str,
-                       lamp: str, target: float, *, today=None, quantity: str = "uvi"
+                       lamp: str, target: float, *, today=None, quantity: str = "uvi",
+                       enclosure_readings: pd.DataFrame | None = None
                        ) -> LampDecay | None:
     """Fit one lamp's decay and forecast when it falls below ``target``.
 
@@ -489,6 +514,10 @@ def analyse_lamp_decay(readings: pd.DataFrame, installs: pd.DataFrame, enclosure
         Day of the analysis (default: today).
     quantity : str
         Quantity fitted [-].
+    enclosure_readings : pandas.DataFrame, optional
+        The enclosure's readings with all lamps on; when the lamp's points are checks at
+        its own position rather than basking readings, the target is moved to that
+        position's scale (:func:`_target_at_check_position`).
 
     Returns
     -------
@@ -509,6 +538,7 @@ def analyse_lamp_decay(readings: pd.DataFrame, installs: pd.DataFrame, enclosure
     points = select_decay_points(readings, installs, enclosure, lamp, quantity=quantity,
                                  today=today)
     fit = fit_decay(points["hours"], points["value"])
+    target = _target_at_check_position(points, enclosure_readings, target, quantity)
     hours_now = lamp_hours(installed_on, daily, today)
     state, forecast = fit.state, None
     if not math.isfinite(target):
@@ -559,6 +589,8 @@ def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresho
                        & (installs["removed_on"].isna() | (installs["removed_on"] > today))]
     wanted = readings[readings["quantity"] == quantity]
     by_lamp = {key: group for key, group in wanted.groupby(["enclosure", "lamp"], sort=False)}
+    all_lamps_on = wanted[wanted["lamp"].fillna("") == ""]
+    by_enclosure = {key: group for key, group in all_lamps_on.groupby("enclosure", sort=False)}
     empty = wanted.iloc[:0]
     installs_of = {key: group for key, group in installs.groupby(["enclosure", "lamp"],
                                                                  sort=False)}
@@ -568,7 +600,8 @@ def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresho
         result = analyse_lamp_decay(by_lamp.get((enclosure, lamp), empty),
                                     installs_of[(enclosure, lamp)], enclosure, lamp,
                                     _threshold_for(thresholds, enclosure, lamp), today=today,
-                                    quantity=quantity)
+                                    quantity=quantity,
+                                    enclosure_readings=by_enclosure.get(enclosure))
         if result is None:
             continue
         fit, fc, points = result.fit, result.forecast, result.points

@@ -218,3 +218,29 @@ def test_exact_fit_keeps_the_rounding_uncertainty():
     fc = decay.forecast_crossing(fit, 0.6, installed_on="2024-01-01", daily_hours=12,
                                  model="linear")
     assert fc.date_early < fc.date < fc.date_late
+
+
+def test_lamp_check_target_scaled_to_basking_share():
+    """Several lamps light one basking area and each is checked alone on its axis: the
+    basking target T moves to the check's scale as T x check/basking (proportional scaling
+    of superposed irradiance; common practice). Checks 2.7 and 2.8 with basking 5.2 and
+    T = 4.5 give 2.337 and 2.423: both lamps are fine, as the basking reading is."""
+    import pandas as pd
+
+    from audit_lib.decay import replacement_schedule
+
+    day = pd.Timestamp("2026-03-10")
+    rows = [("rh-08", "", "basking", 5.2), ("rh-08", "a", "", 2.7), ("rh-08", "b", "", 2.8)]
+    readings = pd.DataFrame({
+        "date": [day] * 3, "enclosure": [r[0] for r in rows], "lamp": [r[1] for r in rows],
+        "position": [r[2] for r in rows], "quantity": ["uvi"] * 3,
+        "value_si": [r[3] for r in rows]})
+    installs = pd.DataFrame({
+        "enclosure": ["rh-08", "rh-08"], "lamp": ["a", "b"], "lamp_model": ["t5", "t5"],
+        "installed_on": [pd.Timestamp("2025-06-01")] * 2, "removed_on": [pd.NaT] * 2,
+        "daily_hours": [12.0, 12.0]})
+    table = replacement_schedule(readings, installs, {"rh-08": 4.5}, today=day)
+    targets = dict(zip(table["lamp"], table["target_min"], strict=True))
+    assert targets["a"] == pytest.approx(4.5 * 2.7 / 5.2)
+    assert targets["b"] == pytest.approx(4.5 * 2.8 / 5.2)
+    assert "below target" not in set(table["state"])
