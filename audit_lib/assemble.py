@@ -162,17 +162,16 @@ def failed_labels(site, enclosure_id: str) -> tuple[str, ...]:
 
 def _screen(record, z_m: float, site):
     from audit_lib.scene import Screen, mesh_transmission
-    from audit_lib.spectra import read_spectrum
+    from audit_lib.spectra import read_transmittance
 
     if record.transmission is not None:
         return Screen(record.id, z_m, transmission=record.transmission, kind=record.kind)
     if record.kind == "mesh":
         return Screen(record.id, z_m, kind="mesh",
                       transmission=mesh_transmission(record.wire_diameter_m, record.pitch_m))
-    spec = read_spectrum(site.path_of(record.transmission_spectrum))
-    values = np.clip(spec.irradiance_w_m2_nm, 0.0, 1.0)
-    return Screen(record.id, z_m, wavelength_nm=tuple(spec.wavelength_nm),
-                  transmittance=tuple(values), kind=record.kind)
+    wavelength_nm, transmittance = read_transmittance(site.path_of(record.transmission_spectrum))
+    return Screen(record.id, z_m, wavelength_nm=tuple(wavelength_nm),
+                  transmittance=tuple(transmittance), kind=record.kind)
 
 
 def build_scene(site, enclosure_id: str, *, lamp_overrides=None):

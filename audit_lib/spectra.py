@@ -157,41 +157,17 @@ def _unit_from_text(header_fields: list[str], lines: list[str], first_numeric: i
     return None
 
 
-def read_spectrum(path, unit: str | None = None, *, name: str | None = None) -> Spectrum:
-    """Read a spectrum file (CSV, TSV or TXT) and convert it to W m-2 nm-1.
+@dataclass(frozen=True)
+class _Table:
+    wavelength_nm: np.ndarray
+    values: np.ndarray
+    rows: list
+    column: str
+    file_unit: str | None
 
-    The table is the block of numeric rows after any metadata lines; the line above it is
-    the header. Column 1 is wavelength [nm], column 2 spectral irradiance. The irradiance
-    unit comes from the header (``irradiance [uW/cm^2/nm]``), a metadata line
-    (``Unit: uW/cm^2/nm``) or the ``unit`` argument; if both file and caller give one
-    they must agree.
 
-    Parameters
-    ----------
-    path : str or Path
-        The file.
-    unit : str, optional
-        Unit of the irradiance column, e.g. ``"uW/cm^2/nm"``.
-    name : str, optional
-        Label; defaults to the file stem.
-
-    Returns
-    -------
-    Spectrum
-        Wavelength [nm] and spectral irradiance [W m-2 nm-1].
-
-    Raises
-    ------
-    InputError
-        Empty or binary file, no numeric table, one column, text or NaN in a number,
-        duplicate or decreasing wavelengths, wavelengths not in nm, large negative values,
-        missing or conflicting unit, or an irradiance impossible for the stated unit.
-
-    Warns
-    -----
-    SpectrumWarning
-        When small negative values (dark-subtraction noise) are clipped to zero.
-    """
+def _read_wavelength_table(path: Path) -> _Table:
+    """Read the numeric two-column table of a text file, validating wavelengths."""
     path = Path(path)
     try:
         raw = path.read_bytes()
@@ -289,6 +265,49 @@ def read_spectrum(path, unit: str | None = None, *, name: str | None = None) -> 
             hint="wavelengths must be in nanometres (e.g. 280–400, not 0.28–0.40 µm)",
         )
 
+    return _Table(wl, e, rows, column, file_unit)
+
+
+def read_spectrum(path, unit: str | None = None, *, name: str | None = None) -> Spectrum:
+    """Read a spectrum file (CSV, TSV or TXT) and convert it to W m-2 nm-1.
+
+    The table is the block of numeric rows after any metadata lines; the line above it is
+    the header. Column 1 is wavelength [nm], column 2 spectral irradiance. The irradiance
+    unit comes from the header (``irradiance [uW/cm^2/nm]``), a metadata line
+    (``Unit: uW/cm^2/nm``) or the ``unit`` argument; if both file and caller give one
+    they must agree.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file.
+    unit : str, optional
+        Unit of the irradiance column, e.g. ``"uW/cm^2/nm"``.
+    name : str, optional
+        Label; defaults to the file stem.
+
+    Returns
+    -------
+    Spectrum
+        Wavelength [nm] and spectral irradiance [W m-2 nm-1].
+
+    Raises
+    ------
+    InputError
+        Empty or binary file, no numeric table, one column, text or NaN in a number,
+        duplicate or decreasing wavelengths, wavelengths not in nm, large negative values,
+        missing or conflicting unit, or an irradiance impossible for the stated unit.
+
+    Warns
+    -----
+    SpectrumWarning
+        When small negative values (dark-subtraction noise) are clipped to zero.
+    """
+    path = Path(path)
+    table = _read_wavelength_table(path)
+    wl, values, rows, column = table.wavelength_nm, table.values, table.rows, table.column
+    file_unit = table.file_unit
+    e = values.copy()
     unit_used = _resolve_unit(unit, file_unit, path, rows[0])
     try:
         factor = si_factor(unit_used, "spectral_irradiance")
@@ -345,3 +364,52 @@ def _resolve_unit(unit: str | None, file_unit: str | None, path: Path, line: int
         line=line,
         hint="write it in the header, e.g. 'irradiance [uW/cm^2/nm]', or pass --unit",
     )
+
+
+def read_transmittance(path) -> tuple[np.ndarray, np.ndarray]:
+    """Read a spectral transmittance file (screens: glass, acrylic, films).
+
+    Same table rules as :func:`read_spectrum`: wavelength [nm] in column 1, transmittance
+    in column 2, either as a fraction 0–1 or in percent (a ``%`` unit in the header or a
+    ``Unit:`` line).
+
+    Parameters
+    ----------
+    path : str or Path
+        The file.
+
+    Returns
+    -------
+    wavelength_nm, transmittance : numpy.ndarray
+        Wavelengths [nm] and transmittance as a fraction [-].
+
+    Raises
+    ------
+    InputError
+        As for :func:`read_spectrum`, and for values outside 0–1 (0–100 %).
+    """
+    path = Path(path)
+    table = _read_wavelength_table(path)
+    unit = (table.file_unit or "").strip().lower()
+    if unit in ("%", "percent", "pct"):
+        values, limit = table.values / 100.0, "0–100 %"
+    elif unit in ("", "1", "-", "fraction"):
+        values, limit = table.values, "0–1"
+    else:
+        raise InputError(
+            f"unit {table.file_unit!r} is not a unit of transmittance",
+            path=path,
+            field=table.column,
+            hint="give transmittance as a fraction 0–1, or write [%] in the header",
+        )
+    bad = np.flatnonzero((values < -0.01) | (values > 1.01))
+    if bad.size:
+        i = int(bad[0])
+        raise InputError(
+            f"transmittance {table.values[i]:g} is outside {limit}",
+            path=path,
+            line=table.rows[i],
+            field=table.column,
+            hint="write [%] in the header if the values are in percent",
+        )
+    return table.wavelength_nm, np.clip(values, 0.0, 1.0)

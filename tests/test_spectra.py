@@ -137,3 +137,18 @@ def test_no_warnings_for_clean_file():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         read_spectrum(DATA / "demo_uv_tube_t5.tsv")
+
+
+def test_transmittance_fraction_and_percent(tmp_path):
+    """A screen's spectral transmittance as a fraction or in percent (definition of
+    transmittance, CIE ILV 17-1303: ratio of transmitted to incident flux)."""
+    from audit_lib.spectra import read_transmittance
+
+    frac = _write(tmp_path, "wavelength,transmittance\n280,0.1\n300,0.5\n400,0.9\n", "f.csv")
+    pct = _write(tmp_path, "wavelength,transmittance [%]\n280,10\n300,50\n400,90\n", "p.csv")
+    for path in (frac, pct):
+        wl, t = read_transmittance(path)
+        assert t.tolist() == pytest.approx([0.1, 0.5, 0.9])
+    bad = _write(tmp_path, "wavelength,transmittance\n280,10\n300,50\n", "b.csv")
+    with pytest.raises(InputError, match=r"b\.csv:2: .*transmittance 10 is outside 0–1.*\[%\]"):
+        read_transmittance(bad)
