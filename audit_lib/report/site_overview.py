@@ -74,7 +74,7 @@ def replacement_table(overview) -> pd.DataFrame:
     order = {"below target": 0, "due soon": 1}
     t["_rank"] = t["state"].map(lambda s: order.get(s, 2))
     return t.sort_values(["_rank", "replace_by"], na_position="last").drop(columns="_rank") \
-        .round(2).reset_index(drop=True)
+        .round(2).set_index(["enclosure", "lamp"])
 
 
 def overview_data(overview) -> dict:
