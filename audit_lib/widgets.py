@@ -84,7 +84,7 @@ class MapView:
         from audit_lib.report.style import MAP_COLORMAP, PALETTE
 
         self.fig = Figure(figsize=(6.4, 4.4), dpi=_DPI)
-        self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.2, top=0.92)
+        self.fig.subplots_adjust(left=0.1, right=0.98, bottom=0.25, top=0.92)
         FigureCanvasAgg(self.fig)
         self.blitter = _Blitter(self.fig)
         self._full = True
@@ -115,7 +115,7 @@ class MapView:
                                       color=PALETTE["vermillion"], markeredgecolor="black",
                                       linestyle="none", label="basking maximum")
         self.contours = []
-        self.legend = ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.13), ncol=2,
+        self.legend = ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.19), ncol=2,
                                 fontsize="x-small", frameon=False)
         ax.set_title("UV Index at each surface's height; lines: zone maximum range",
                      fontsize="small")
@@ -269,9 +269,11 @@ class WhatIfPanel:
     ----------
     planner : WhatIfPlanner
         The planner to drive.
+    notes : list of str, optional
+        Caveats to show under the panel (e.g. warnings raised while loading the site).
     """
 
-    def __init__(self, planner: WhatIfPlanner):
+    def __init__(self, planner: WhatIfPlanner, notes=()):
         import ipywidgets as w
 
         self.planner = planner
@@ -279,8 +281,8 @@ class WhatIfPanel:
         c = planner.config
         rec = planner.record
         self._busy = False
-        lay = w.Layout(width="340px")
-        style = {"description_width": "150px"}
+        lay = w.Layout(width="400px")
+        style = {"description_width": "190px"}
 
         def control(cls, description, **kw):
             if cls in (w.FloatSlider, w.IntSlider):
@@ -336,9 +338,11 @@ class WhatIfPanel:
         left = w.VBox([*self.controls.values(), w.HBox([self.scenario_name]),
                        self.save_button, self.status])
         right = w.VBox([self.map_image, self.daily_image, self.summary])
+        self.notes = w.HTML("".join(f"<p><strong>Note:</strong> {html.escape(n)}</p>"
+                                    for n in notes))
         self.widget = w.VBox([w.HBox([left, right]),
                               w.HTML("<h4>Recommended changes</h4>"), self.recommendation,
-                              self.verdict])
+                              self.verdict, self.notes])
 
     # --- binding --------------------------------------------------------------------------
 
@@ -479,10 +483,22 @@ def open_panel(site_dir, enclosure_id: str = "", *, lamp: str = "", shape=DEFAUL
     WhatIfPanel
         Display it (it is the last expression of a cell) to see the controls.
     """
+    import warnings
+
+    from audit_lib.errors import AuditWarning
     from audit_lib.site import load_site
 
-    site = load_site(site_dir)
-    if enclosure_id:
-        site.enclosure(enclosure_id)  # a clear error for an unknown id
-    planner = WhatIfPlanner(site, enclosure_id, lamp=lamp, shape=shape, audit_date=audit_date)
-    return WhatIfPanel(planner)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", AuditWarning)
+        site = load_site(site_dir)
+        if enclosure_id:
+            site.enclosure(enclosure_id)  # a clear error for an unknown id
+        planner = WhatIfPlanner(site, enclosure_id, lamp=lamp, shape=shape,
+                                audit_date=audit_date)
+    notes = []
+    for w in caught:
+        if issubclass(w.category, AuditWarning):
+            notes.append(str(w.message))
+        else:
+            warnings.showwarning(w.message, w.category, w.filename, w.lineno)
+    return WhatIfPanel(planner, notes=list(dict.fromkeys(notes)))

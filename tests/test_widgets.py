@@ -125,3 +125,66 @@ def test_workbook_runs_headless_under_nbval():
                            "-p", "no:cacheprovider", str(path)], cwd=ROOT,
                           capture_output=True, text=True, timeout=600)
     assert done.returncode == 0, done.stdout[-2000:] + done.stderr[-2000:]
+
+
+CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
+
+
+@pytest.mark.slow
+@pytest.mark.browser
+@pytest.mark.skipif(not Path(CHROMIUM).exists(), reason="Debian's chromium is not installed")
+def test_panel_in_jupyterlab(tmp_path):
+    """In a real browser (headless Chromium via Playwright), JupyterLab opens the workbook,
+    runs it, shows the panel and reacts to a control: ipywidgets' JupyterLab front end
+    (jupyterlab_widgets) renders the controls and images; choosing a screen recomputes."""
+    import os
+    import signal
+    import socket
+    import time
+
+    playwright = pytest.importorskip("playwright.sync_api")
+    sock = socket.socket()
+    sock.bind(("127.0.0.1", 0))
+    port = sock.getsockname()[1]
+    sock.close()
+    token = "what-if-test"
+    root = tmp_path / "lab"  # a copy: JupyterLab's autosave must not touch the repository
+    (root / "workbooks").mkdir(parents=True)
+    shutil.copy(ROOT / "workbooks" / "what_if.ipynb", root / "workbooks")
+    shutil.copytree(DEMO, root / "sample_sites" / DEMO.name)
+    lab = subprocess.Popen(
+        [sys.executable, "-m", "jupyterlab", "--no-browser", f"--port={port}",
+         "--ServerApp.ip=127.0.0.1", f"--IdentityProvider.token={token}",
+         f"--ServerApp.root_dir={root}", "--allow-root", "--LabApp.news_url=",
+         f"--LabApp.user_settings_dir={tmp_path / 'settings'}",
+         f"--LabApp.workspaces_dir={tmp_path / 'workspaces'}"],
+        stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
+    try:
+        for _ in range(120):
+            try:
+                socket.create_connection(("127.0.0.1", port), timeout=1).close()
+                break
+            except OSError:
+                time.sleep(0.5)
+        with playwright.sync_playwright() as p:
+            browser = p.chromium.launch(executable_path=CHROMIUM,
+                                        args=["--no-sandbox", "--disable-gpu"])
+            page = browser.new_page(viewport={"width": 1400, "height": 1300})
+            page.goto(f"http://127.0.0.1:{port}/lab/tree/workbooks/what_if.ipynb?token={token}")
+            page.wait_for_selector(".jp-Notebook", timeout=180_000)
+            page.wait_for_selector("text=Python (audit-lib)", timeout=180_000)
+            page.click("text=Run", timeout=60_000)
+            page.click("text=Run All Cells", timeout=60_000)
+            page.wait_for_selector("text=Height above floor (m)", timeout=180_000)
+            widths = page.eval_on_selector_all(".widget-image",
+                                               "els => els.map(e => e.naturalWidth)")
+            assert len(widths) == 2 and all(w > 0 for w in widths)
+            page.locator(".widget-dropdown", has_text="Screen or mesh").locator(
+                "select").select_option("mesh-fine")
+            page.wait_for_selector("text=Updated in", timeout=120_000)
+            (ROOT / "test-artifacts").mkdir(exist_ok=True)
+            page.screenshot(path=str(ROOT / "test-artifacts" / "what-if-panel.png"))
+            browser.close()
+    finally:
+        os.killpg(lab.pid, signal.SIGTERM)
+        lab.wait(timeout=30)
