@@ -75,7 +75,7 @@ def test_report_in_a_browser(batch_out, page):
     assert images.count() >= 4
     widths = page.eval_on_selector_all("img", "els => els.map(e => e.naturalWidth)")
     assert all(w > 0 for w in widths)
-    assert page.locator("table.checks").is_visible()
+    assert page.locator("table.checks").first.is_visible()
     assert page.locator(".report-cautions").is_visible()
     ARTIFACTS.mkdir(exist_ok=True)
     page.screenshot(path=str(ARTIFACTS / "report.png"), full_page=True)
