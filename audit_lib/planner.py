@@ -83,6 +83,9 @@ class PlanResult:
         Highest 280-290 nm share of UVB over the lamps [-].
     timings_ms : dict of str to float
         Time spent per stage of this update [ms].
+    notes : list of str
+        Library warnings raised by this update (e.g. a measured lamp used outside the
+        distances it was measured at).
     """
 
     config: PlanConfig
@@ -102,6 +105,7 @@ class PlanResult:
     keeper_limit_s: float | None
     short_uvb_fraction: float | None
     timings_ms: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
 
     @property
     def actions(self) -> list:
@@ -314,9 +318,18 @@ class WhatIfPlanner:
         n = len(self.emitter_labels(config))
         config = replace(config, failed_emitters=tuple(k for k in config.failed_emitters
                                                        if 1 <= k <= n))
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", AuditWarning)
+        from audit_lib.lamps import OutsideMeasuredRangeWarning
+
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", AuditWarning)
+            # reported once per surface from the maps instead (see _compute)
+            warnings.simplefilter("ignore", OutsideMeasuredRangeWarning)
             result = self._compute(config)
+        for w in caught:
+            if not issubclass(w.category, AuditWarning):
+                warnings.showwarning(w.message, w.category, w.filename, w.lineno)
+            elif str(w.message) not in result.notes:
+                result.notes.append(str(w.message))
         self.config = config
         self.result = result
         return result
@@ -362,6 +375,10 @@ class WhatIfPlanner:
                                     mean_uvi=mean_uvi, refuge_share=refuge, light_hours=hours,
                                     short_uvb_fraction=short, keeper_limit_s=keeper)
         t4 = time.perf_counter()
+        notes = [f"On {share:.0%} of {name!r} a lamp known from readings is used outside the "
+                 "distances it was measured at: values there are extrapolated."
+                 for name, share in ((n, st.share_extrapolated) for n, st in stats.items())
+                 if share > 0]
         return PlanResult(
             config=c, maps=maps, basking_surface=peak_surface,
             basking_max_uvi=float(pm.values["uvi"].max()), peak_point_m=peak,
@@ -369,7 +386,8 @@ class WhatIfPlanner:
             daily=daily, dose=dose, sun=self._sun(), zone=zone, verdict=verdict,
             keeper_limit_s=keeper, short_uvb_fraction=short,
             timings_ms={"maps": 1e3 * (t1 - t0), "statistics": 1e3 * (t2 - t1),
-                        "day": 1e3 * (t3 - t2), "verdict": 1e3 * (t4 - t3)})
+                        "day": 1e3 * (t3 - t2), "verdict": 1e3 * (t4 - t3)},
+            notes=notes)
 
     # --- stages (each a library call) -----------------------------------------------------
 

@@ -329,6 +329,8 @@ class WhatIfPanel:
         self.summary = w.HTML()
         self.verdict = w.HTML()
         self.recommendation = w.HTML()
+        self._load_notes = list(notes)
+        self.notes = w.HTML()
         for key, widget in self.controls.items():
             widget.observe(lambda change, key=key: self._changed(key, change["new"]),
                            names="value")
@@ -338,8 +340,6 @@ class WhatIfPanel:
         left = w.VBox([*self.controls.values(), w.HBox([self.scenario_name]),
                        self.save_button, self.status])
         right = w.VBox([self.map_image, self.daily_image, self.summary])
-        self.notes = w.HTML("".join(f"<p><strong>Note:</strong> {html.escape(n)}</p>"
-                                    for n in notes))
         self.widget = w.VBox([w.HBox([left, right]),
                               w.HTML("<h4>Recommended changes</h4>"), self.recommendation,
                               self.verdict, self.notes])
@@ -442,6 +442,9 @@ class WhatIfPanel:
         else:
             self.verdict.value = "<p>No species with a known zone is chosen.</p>"
         self.recommendation.value = f"<p>{html.escape(result.recommendation)}</p>"
+        notes = dict.fromkeys([*self._load_notes, *result.notes])
+        self.notes.value = "".join(f"<p><strong>Note:</strong> {html.escape(n)}</p>"
+                                   for n in notes)
 
     def save(self, name: str | None = None, note: str = ""):
         """Save the plan as a scenario of the site; returns the written path (or None)."""

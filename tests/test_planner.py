@@ -199,3 +199,16 @@ def test_changing_the_lamp_model_clears_emitter_settings(site):
     labels = planner.emitter_labels()
     assert sum(e.startswith("uvb") for e in labels) == 2 * 2 + 2 * 2
     assert sum(e.startswith("white") for e in labels) == 8
+
+
+def test_measured_lamp_outside_its_range_is_noted(site):
+    """A lamp known only from readings at 0.1-0.4 m (the demo site's compact lamp) used 0.9 m
+    above the floor is extrapolated there, and the result says so once per surface (common
+    practice: a fitted law holds within the range it was fitted on)."""
+    planner = WhatIfPlanner(site, "rh-07", shape=(10, 10))
+    near = planner.update(z_m=0.5)
+    far = planner.update(z_m=0.9)
+    assert any("'floor'" in n and "extrapolated" in n for n in far.notes)
+    assert len(far.notes) == len(set(far.notes)) <= len(far.maps)
+    assert far.statistics["floor"].share_extrapolated == 1.0
+    assert near.statistics["basking"].share_extrapolated < 1.0
