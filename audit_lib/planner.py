@@ -187,6 +187,10 @@ class WhatIfPlanner:
 
     # --- choices for the controls ---------------------------------------------------------
 
+    def placed_lamps(self) -> list[str]:
+        """Ids of the enclosure's placed lamps (one of them is planned at a time)."""
+        return [p.id for p in self.record.lamps]
+
     def lamp_models(self) -> dict[str, str]:
         """Lamp model id to its name."""
         return {m.id: m.name for m in self.site.records.lamp_models}
@@ -304,14 +308,20 @@ class WhatIfPlanner:
         ----------
         **changes
             Fields of :class:`audit_lib.scenarios.PlanConfig` (``z_m=0.7``,
-            ``failed_emitters=(3,)``, ``species="..."``, ``on="08:00"``...).
+            ``failed_emitters=(3,)``, ``species="..."``, ``on="08:00"``...). A new ``lamp``
+            (another placed lamp of the enclosure) starts from that lamp as the site has it;
+            the changes made to the previous lamp are dropped.
 
         Raises
         ------
         InputError
             An unknown setting, or a value the site cannot take; the plan is left unchanged.
         """
-        config = change_plan(self.config, **changes)
+        config = self.config
+        if changes.get("lamp", config.lamp) != config.lamp:  # plan another lamp: start afresh
+            fresh = plan_from_site(self.site, self.enclosure_id, changes["lamp"], self.day)
+            config = replace(fresh, species=config.species)
+        config = change_plan(config, **changes)
         if "lamp_model" in changes and changes["lamp_model"] != self.config.lamp_model:
             config = replace(config, failed_emitters=(), uv_per_row=changes.get("uv_per_row"),
                              uv_beam_angle_deg=changes.get("uv_beam_angle_deg"))

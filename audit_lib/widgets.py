@@ -291,6 +291,8 @@ class WhatIfPanel:
 
         models = planner.lamp_models()
         self.controls = {
+            "lamp": control(w.Dropdown, "Lamp to plan", options=planner.placed_lamps(),
+                            value=c.lamp),
             "lamp_model": control(w.Dropdown, "Lamp",
                                   options=[(f"{n} ({k})", k) for k, n in models.items()],
                                   value=c.lamp_model),
@@ -400,13 +402,17 @@ class WhatIfPanel:
             self.apply(**self._changes(key, value))
         except AuditError as exc:
             self.status.value = f"<span style='color:#D55E00'>{html.escape(str(exc))}</span>"
-        if key in ("lamp_model", "uv_per_row", "own_times"):
-            self._refresh_controls()
+        if key in ("lamp", "lamp_model", "uv_per_row", "own_times"):
+            self._refresh_controls(everything=key == "lamp")
 
-    def _refresh_controls(self) -> None:
+    def _refresh_controls(self, everything: bool = False) -> None:
         self._busy = True
         try:
             ctl = self.controls
+            c = self.planner.config
+            if everything:
+                for key in ("lamp_model", "z_m", "x_m", "y_m", "screen", "output_share"):
+                    ctl[key].value = getattr(c, key)
             ctl["failed_emitters"].options = self._emitter_options()
             ctl["failed_emitters"].value = tuple(self.planner.config.failed_emitters)
             ctl["uv_per_row"].value = self._per_row()

@@ -212,3 +212,18 @@ def test_measured_lamp_outside_its_range_is_noted(site):
     assert len(far.notes) == len(set(far.notes)) <= len(far.maps)
     assert far.statistics["floor"].share_extrapolated == 1.0
     assert near.statistics["basking"].share_extrapolated < 1.0
+
+
+def test_planning_another_lamp_starts_from_the_site(site):
+    """Switching to the other tube of a two-lamp enclosure starts from that tube as the site
+    file places it, and the first tube is back where the site has it (superposition of
+    incoherent sources: the enclosure's maps are those of the site file again)."""
+    planner = WhatIfPlanner(site, "rh-08", shape=(10, 10))
+    as_built = planner.update()
+    planner.update(z_m=0.30)
+    r = planner.update(lamp="t5-back")
+    back = site.enclosure("rh-08").lamps[1]
+    assert (r.config.lamp, r.config.x_m, r.config.y_m, r.config.z_m) == (
+        "t5-back", back.x_m, back.y_m, back.z_m)
+    np.testing.assert_allclose(r.maps["floor"].values["uvi"],
+                               as_built.maps["floor"].values["uvi"], rtol=1e-12)
