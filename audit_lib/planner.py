@@ -227,8 +227,8 @@ class WhatIfPlanner:
         return (c.lamp_model, c.uv_per_row, c.uv_beam_angle_deg)
 
     def _place_key(self, c: PlanConfig):
-        return (*self._lamp_key(c), c.x_m, c.y_m, c.z_m, c.tilt_deg, c.rotation_deg, c.screen,
-                self.shape)
+        return (c.lamp, *self._lamp_key(c), c.x_m, c.y_m, c.z_m, c.tilt_deg, c.rotation_deg,
+                c.screen, self.shape)
 
     def _cached(self, kind, key, build):
         slot = self._cache.setdefault(kind, {})
