@@ -115,6 +115,15 @@ def convert_notebook(nb, exporter=None) -> str:
     data = read_report_data(nb) or {}
     header = dict(data.get("report", {}))
     header["logo_data_uri"] = logo_data_uri(header.pop("logo_path", None))
+    run = nb.metadata.get("papermill", {})
+    if run:
+        import json
+
+        header["provenance"] = [
+            *header.get("provenance", []),
+            ("Run", f"{run.get('start_time', '')[:19]} to {run.get('end_time', '')[:19]} UTC"),
+            ("Workbook", Path(run.get("input_path") or "").name),
+            ("Parameters", json.dumps(run.get("parameters", {}), sort_keys=True))]
     header.setdefault("title", nb.metadata.get("title", "Lighting audit"))
     nb.metadata["audit_report"] = header
     nb.metadata["title"] = header["title"]
