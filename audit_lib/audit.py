@@ -242,13 +242,24 @@ def _per_lamp(scene, points, failed, quantities=("uvi", "vitamin_d_w_m2")):
 
 
 def _measured_uvi(site, enclosure_id, audit_date):
+    """UV Index readings of the audit day per position, mismatch-corrected where possible.
+
+    The correction (:mod:`audit_lib.meter_corrections`) applies where the site gives the
+    meter's spectral response; the raw mean stays beside the corrected one.
+    """
     rows = site.readings_of(enclosure_id)
     if rows.empty:
-        return pd.DataFrame(columns=["position", "measured_uvi"])
+        return pd.DataFrame(columns=["position", "measured_uvi", "measured_uvi_raw"])
     day = rows[(pd.to_datetime(rows["date"]).dt.date == audit_date) & (rows["quantity"] == "uvi")
-               & (rows["position"].astype(str) != "")]
-    return day.groupby("position", as_index=False)["value_si"].mean().rename(
-        columns={"value_si": "measured_uvi"})
+               & (rows["position"].astype(str) != "")].copy()
+    day["raw"] = day["value_si"]
+    if any(m.spectral_response for m in site.records.meters) and len(day):
+        from audit_lib.meter_corrections import correct_site_readings
+
+        corrected = correct_site_readings(site).loc[day.index, "value_si_corrected"]
+        day["value_si"] = corrected.fillna(day["raw"])
+    means = day.groupby("position", as_index=False)[["value_si", "raw"]].mean()
+    return means.rename(columns={"value_si": "measured_uvi", "raw": "measured_uvi_raw"})
 
 
 def _positions(record, maps, measured_at) -> pd.DataFrame:

@@ -146,3 +146,29 @@ def test_parameters_are_checked(small):
         choose_audit_date(small, "2026-13-01")
     assert choose_audit_date(small, "2026-01-02") == dt.date(2026, 1, 2)
     assert choose_audit_date(small) == max(small.records.site.audit_dates)
+
+
+def test_readings_corrected_for_meter_mismatch(tmp_path):
+    """Spectral mismatch correction (CIE S 017 / IEC 60904-7 F*): with a meter response that
+    differs from the erythema action spectrum, the audit compares the model with the
+    corrected reading (raw x F*) and keeps the raw one beside it."""
+    import shutil
+
+    from audit_lib.meter_corrections import site_meter_corrections
+
+    site_dir = tmp_path / "site"
+    shutil.copytree(SMALL, site_dir)
+    rows = "\n".join(f"{wl},{max(0.0, 1 - abs(wl - 320) / 60):.4f}" for wl in range(250, 401, 5))
+    (site_dir / "flat_meter.csv").write_text("wavelength_nm,relative_response\n" + rows + "\n")
+    toml = site_dir / "site.toml"
+    text = toml.read_text()
+    at = text.index('type = "uv_index_meter"')
+    toml.write_text(text[:at] + 'spectral_response = "flat_meter.csv"\n' + text[at:])
+    site = load_site(site_dir)
+    enclosure = site.records.enclosures[0]
+    factors = site_meter_corrections(site)
+    factor = float(factors[factors["enclosure"] == enclosure.id]["correction_factor"].iloc[0])
+    assert abs(factor - 1) > 0.01
+    points = audit_enclosure(site, enclosure.id).points.dropna(subset=["measured_uvi"])
+    assert len(points)
+    assert np.allclose(points["measured_uvi"], points["measured_uvi_raw"] * factor, rtol=1e-9)

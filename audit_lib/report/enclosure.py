@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 from html import escape
 
+import numpy as np
 import pandas as pd
 
 from audit_lib.report.index_page import state_class
@@ -162,6 +163,9 @@ def points_table(audit) -> pd.DataFrame:
     if p is None or not len(p):
         return pd.DataFrame({"note": ["no named positions or position readings"]})
     cols = ["position", "x_m", "y_m", "z_m", "modelled_uvi", "measured_uvi"]
+    if "measured_uvi_raw" in p and not np.allclose(p["measured_uvi_raw"].fillna(0),
+                                                   p["measured_uvi"].fillna(0)):
+        cols.append("measured_uvi_raw")  # meter mismatch correction applied
     return p[[c for c in cols if c in p.columns]].round(2).set_index("position")
 
 
