@@ -307,3 +307,17 @@ def test_hostile_enclosure_name_is_escaped(tmp_path):
         html = page.read_text()
         assert "<script>alert" not in html and "<img src=x" not in html
         assert "&lt;script&gt;alert" in html
+
+
+def test_cli_run_on_invalid_site_exits_2(tmp_path, capsys):
+    """The command's contract (docs/batch-reports.md): bad input, exit status 2, one message
+    per problem, nothing written."""
+    from audit_lib.cli import main
+
+    broken = tmp_path / "site"
+    shutil.copytree(SMALL, broken)
+    toml = broken / "site.toml"
+    toml.write_text(toml.read_text().replace("format_version = 1", "format_version = 99"))
+    assert main(["run", str(broken), "--out", str(tmp_path / "out"), "--quiet"]) == 2
+    assert "format_version" in capsys.readouterr().err
+    assert not (tmp_path / "out" / "index.html").exists()
