@@ -4,7 +4,8 @@ VENV   := .venv
 PY     := $(VENV)/bin/python
 STAMP  := $(VENV)/.installed-stamp
 OUT    := out
-DEMO_SPECTRA := $(wildcard sample_sites/*/spectra/*.csv)
+DEMO_SITE := sample_sites/kestrel-moor-wildlife-park
+DEMO_SPECTRA := $(wildcard $(DEMO_SITE)/spectra/*.csv)
 
 .PHONY: setup demo spectra test test-fast lint bench clean
 
@@ -17,16 +18,19 @@ $(STAMP): pyproject.toml
 
 setup: $(STAMP)
 
-## The main job on the demo site: spectrum reports for the demo spectra.
-demo: setup spectra
+## The main job on the demo site: every enclosure audited, reports and index (last line: its path).
+demo: setup
+	$(VENV)/bin/light-audit run $(DEMO_SITE) --out $(OUT)/$(notdir $(DEMO_SITE))
 
+## One spectrum report per demo spectrum file (self-contained HTML, our template).
 spectra: setup
 	@mkdir -p $(OUT)/spectra
 	@for f in $(DEMO_SPECTRA); do \
 	  name=$$(basename $$f .csv); \
 	  $(VENV)/bin/papermill --log-level ERROR -k audit-lib workbooks/spectrum_report.ipynb \
 	    $(OUT)/spectra/$$name.ipynb -p spectrum_path "$$(realpath $$f)" || exit 1; \
-	  $(VENV)/bin/jupyter nbconvert --log-level ERROR --to html --no-input \
+	  $(VENV)/bin/jupyter nbconvert --log-level ERROR --to html --no-input --template audit \
+	    --TemplateExporter.extra_template_basedirs=templates \
 	    $(OUT)/spectra/$$name.ipynb --output-dir $(OUT)/spectra || exit 1; \
 	  echo "spectrum report: $(OUT)/spectra/$$name.html"; \
 	done

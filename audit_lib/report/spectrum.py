@@ -101,10 +101,11 @@ def metrics_table(metrics: dict):
 
     from audit_lib.metrics import METRIC_LABELS, format_metric
 
-    rows = [
-        {"quantity": label, "value": format_metric(key, metrics.get(key)), "unit": unit}
-        for key, (label, unit) in METRIC_LABELS.items()
-    ]
+    rows = []
+    for key, (label, unit) in METRIC_LABELS.items():
+        text = format_metric(key, metrics.get(key))
+        rows.append({"quantity": label, "value": text,
+                     "unit": "" if text in ("n/a", "unlimited") else unit})
     table = pd.DataFrame(rows)
     return table.style.hide(axis="index").set_properties(
         subset=["quantity"], **{"text-align": "left"}
