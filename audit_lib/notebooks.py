@@ -223,7 +223,9 @@ class WarmKernel:
             return
         self.shutdown()
         self.km = AsyncKernelManager(kernel_name=self.kernel_name)
-        run_sync(self.km.start_kernel)(cwd=self.cwd)
+        # an exported MPLBACKEND (e.g. Agg) would stop the inline backend: figures vanish
+        env = {k: v for k, v in os.environ.items() if k != "MPLBACKEND"}
+        run_sync(self.km.start_kernel)(cwd=self.cwd, env=env)
         if self.warm_up:
             client = self.km.client()
             client.start_channels()

@@ -124,3 +124,22 @@ def test_warm_kernel_clears_the_namespace_between_workbooks(tmp_path):
         assert (tmp_path / "three.ipynb").is_file()
     finally:
         kernel.shutdown()
+
+
+@pytest.mark.slow
+def test_exported_mplbackend_does_not_remove_figures(tmp_path, monkeypatch):
+    """matplotlib: MPLBACKEND overrides the backend; the warm kernel drops it so the inline
+    backend (matplotlib-inline) still puts figures into the executed notebook."""
+    monkeypatch.setenv("MPLBACKEND", "Agg")
+    nb = new_notebook(cells=[
+        new_code_cell("x = 1", metadata={"tags": ["parameters"]}),
+        new_code_cell("import matplotlib.pyplot as plt\nplt.plot([0, 1])\nplt.show()"),
+    ], metadata={"kernelspec": {"name": "audit-lib", "display_name": "x", "language": "python"}})
+    src = tmp_path / "plot.ipynb"
+    nbformat.write(nb, src)
+    kernel = WarmKernel(cwd=tmp_path)
+    try:
+        done = kernel.execute(src, tmp_path / "out.ipynb", {"x": 2})
+    finally:
+        kernel.shutdown()
+    assert any("image/png" in o.get("data", {}) for o in done.cells[-1].outputs)
