@@ -32,11 +32,11 @@ import numpy as np
 import pandas as pd
 
 from audit_lib import __version__
+from audit_lib import audit_steps as steps
 from audit_lib.errors import AuditWarning, InputError
 
 #: Grid spacing of the maps unless asked otherwise [m].
 DEFAULT_SPACING_M = 0.02
-_PLACE_SHAPE = (6, 6)
 
 
 @dataclass
@@ -220,204 +220,6 @@ def open_enclosure(site_dir, enclosure_id: str = "", *, audit_date: str = "",
     return site, enclosure_id
 
 
-def _only(scene, lamp):
-    return replace(scene, lamps=(lamp,))
-
-
-def _failed_of(failed, lamp_id):
-    return tuple(f for f in failed if f.startswith(f"{lamp_id}/"))
-
-
-def _per_lamp(scene, points, failed, quantities=("uvi", "vitamin_d_w_m2")):
-    """Per lamp id, the quantities at points (full output): {q: {lamp: (n,) array}}."""
-    from audit_lib.scene import evaluate_points
-
-    out = {q: {} for q in quantities}
-    for lamp in scene.lamps:
-        ev = evaluate_points(_only(scene, lamp), points, quantities,
-                             failed=_failed_of(failed, lamp.id))
-        for q in quantities:
-            out[q][lamp.id] = ev.values[q]
-    return out
-
-
-def _measured_uvi(site, enclosure_id, audit_date):
-    """UV Index readings of the audit day per position, mismatch-corrected where possible.
-
-    The correction (:mod:`audit_lib.meter_corrections`) applies where the site gives the
-    meter's spectral response; the raw mean stays beside the corrected one.
-    """
-    rows = site.readings_of(enclosure_id)
-    if rows.empty:
-        return pd.DataFrame(columns=["position", "measured_uvi", "measured_uvi_raw"])
-    day = rows[(pd.to_datetime(rows["date"]).dt.date == audit_date) & (rows["quantity"] == "uvi")
-               & (rows["position"].astype(str) != "")].copy()
-    day["raw"] = day["value_si"]
-    if any(m.spectral_response for m in site.records.meters) and len(day):
-        from audit_lib.meter_corrections import correct_site_readings
-
-        corrected = correct_site_readings(site).loc[day.index, "value_si_corrected"]
-        day["value_si"] = corrected.fillna(day["raw"])
-    means = day.groupby("position", as_index=False)[["value_si", "raw"]].mean()
-    return means.rename(columns={"value_si": "measured_uvi", "raw": "measured_uvi_raw"})
-
-
-def _positions(record, maps, measured_at) -> pd.DataFrame:
-    """Named positions, plus surfaces measured by name (at their brightest cell)."""
-    rows = [{"position": p.id, "x_m": p.x_m, "y_m": p.y_m, "z_m": p.z_m}
-            for p in record.positions]
-    named = {r["position"] for r in rows}
-    for name in measured_at:
-        if name in named or name not in maps:
-            continue
-        m = maps[name]
-        iy, ix = np.unravel_index(np.argmax(m.values["uvi"]), m.values["uvi"].shape)
-        rows.append({"position": name, "x_m": float(m.x_m[ix]), "y_m": float(m.y_m[iy]),
-                     "z_m": m.surface.z_m})
-    return pd.DataFrame(rows, columns=["position", "x_m", "y_m", "z_m"])
-
-
-def _calibrate(points: pd.DataFrame) -> float:
-    ok = points.dropna(subset=["measured_uvi"])
-    ok = ok[(ok["uvi"] > 0) & (ok["measured_uvi"] >= 0)]
-    if ok.empty:
-        return 1.0
-    return float(np.median(ok["measured_uvi"] / ok["uvi"]))
-
-
-def _scale_maps(maps, factor):
-    if factor == 1.0:
-        return maps
-    return {name: replace(m, values={q: v * factor for q, v in m.values.items()})
-            for name, m in maps.items()}
-
-
-def _places(record, scene):
-    """Representative points of each place of the time budget: {name: (n, 3) points}."""
-    from audit_lib.scene import surface_grid
-
-    places = {}
-    for s in scene.all_surfaces:
-        places[s.name] = surface_grid(s, shape=_PLACE_SHAPE)[2]
-    for p in record.positions:
-        places[p.id] = np.array([[p.x_m, p.y_m, p.z_m]])
-    return places
-
-
-def _lamp_table(site, record, audit_date, threshold):
-    from audit_lib.decay import analyse_lamp_decay, replacement_schedule
-    from audit_lib.forecast import schedule_daily_hours
-
-    installs = pd.DataFrame([{
-        "enclosure": record.id, "lamp": p.id, "installed_on": pd.Timestamp(p.installed),
-        "removed_on": pd.NaT, "lamp_model": p.model, "note": p.note,
-        "daily_hours": p.daily_hours if p.daily_hours is not None else
-        schedule_daily_hours(site.schedule(p.schedule))} for p in record.lamps])
-    if installs.empty:
-        return installs, []
-    readings = site.readings_of(record.id)
-    table = replacement_schedule(readings, installs, threshold, today=audit_date)
-    table.insert(4, "age_days", [(pd.Timestamp(audit_date) - t).days
-                                 for t in table["installed_on"]])
-    decays = [analyse_lamp_decay(readings, installs, record.id, p.id, threshold,
-                                 today=audit_date) for p in record.lamps]
-    return table.reset_index(drop=True), [d for d in decays if d is not None and len(d.points)]
-
-
-def _spectra(site, record, scene):
-    """Spectrum metrics per lamp model (LED arrays: flux-weighted sum of emitter types)."""
-    from audit_lib.assemble import model_spectrum
-    from audit_lib.emitters import MODEL_WAVELENGTH_NM, spectral_flux
-    from audit_lib.lamps import LedArray
-    from audit_lib.metrics import spectrum_metrics
-    from audit_lib.spectra import Spectrum
-
-    spectra, metrics = {}, {}
-    built = {p.name: p.lamp for p in scene.lamps}
-    for place in record.lamps:
-        if place.model in spectra:
-            continue
-        model, lamp = site.lamp_model(place.model), built[place.id]
-        spectrum = model_spectrum(site, model)
-        if spectrum is None and isinstance(lamp, LedArray):
-            counts = {}
-            for e in lamp.emitters:
-                counts[e.type] = counts.get(e.type, 0) + 1
-            total = np.zeros_like(MODEL_WAVELENGTH_NM)
-            for t in lamp.emitter_types:
-                total += counts.get(t.name, 0) * spectral_flux(t)[1]
-            spectrum = Spectrum(MODEL_WAVELENGTH_NM, total, name=model.name,
-                                source="modelled emitters")
-        if spectrum is not None:
-            spectra[place.model] = spectrum
-            metrics[place.model] = spectrum_metrics(spectrum)
-    return spectra, metrics
-
-
-def _keeper_limit(scene, record, failed):
-    """Shortest keeper limit over lamps, at the working distance below each lamp [s]."""
-    from audit_lib.metrics import keeper_limit_s
-    from audit_lib.scene import evaluate_points
-
-    distance = record.keeper_working_distance_m
-    if not distance or not scene.lamps:
-        return None
-    limits = []
-    for lamp in scene.lamps:
-        point = np.array([[lamp.x_m, lamp.y_m, lamp.z_m - distance]])
-        ev = evaluate_points(_only(scene, lamp), point, ("actinic_w_m2",),
-                             failed=_failed_of(failed, lamp.id))
-        actinic = float(ev.values["actinic_w_m2"][0])
-        if math.isfinite(actinic):
-            limits.append(float(keeper_limit_s(actinic)))
-    return min(limits) if limits else None
-
-
-def _height_for_uvi(scene, lamp, point, failed, calibration):
-    """Callable: lamp height above the basking point giving a UV Index there [UVI -> m]."""
-    from scipy.optimize import brentq
-
-    from audit_lib.scene import evaluate_points
-
-    def uvi_at(height):
-        moved = replace(lamp, z_m=point[2] + height)
-        with warnings.catch_warnings():  # scanning heights leaves any measured range
-            warnings.simplefilter("ignore", AuditWarning)
-            ev = evaluate_points(_only(scene, moved), point[None, :], ("uvi",),
-                                 failed=_failed_of(failed, lamp.id))
-        return calibration * float(ev.values["uvi"][0])
-
-    def height_for(target):
-        lo, hi = 0.03, 3.0
-        if not uvi_at(lo) >= target >= uvi_at(hi):
-            return math.nan
-        return float(brentq(lambda h: uvi_at(h) - target, lo, hi, xtol=1e-3))
-
-    return height_for
-
-
-def _failure_table(scene, surface, failed, uvi_range, calibration, probability, seed=0):
-    """Deterministic and Monte Carlo failure scenarios on the basking surface."""
-    from audit_lib.failures import failure_scenarios, monte_carlo_failures
-    from audit_lib.lamps import LedArray
-
-    if not any(isinstance(p.lamp, LedArray) for p in scene.lamps):
-        return pd.DataFrame(), None
-    lo, hi = (v / calibration for v in uvi_range)
-    scenarios = failure_scenarios(scene, surface, out=failed, worst=1, uvi_range=(lo, hi),
-                                  shape=(12, 12))
-    scenarios += failure_scenarios(scene, surface, worst=2, uvi_range=(lo, hi),
-                                   shape=(12, 12))[1:]
-    rows = [{"scenario": s.name, "emitters_out": ", ".join(s.failed) or "none",
-             "max_uvi": calibration * s.statistics.maximum["uvi"],
-             "mean_uvi": calibration * s.statistics.mean["uvi"],
-             "share_in_range": s.statistics.share_in_uvi_range} for s in scenarios]
-    mc = monte_carlo_failures(scene, surface, (lo, hi), probability, n_trials=2000,
-                              seed=seed, shape=(12, 12))
-    # shares are the same for the calibrated range; label the study with the zone's range
-    return pd.DataFrame(rows), replace(mc, uvi_range=tuple(uvi_range))
-
-
 def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                     spacing_m: float = DEFAULT_SPACING_M,
                     emitter_failure_probability: float = 0.05,
@@ -493,19 +295,19 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     scene = build_scene(site, enclosure_id)
     failed = failed_labels(site, enclosure_id)
     raw_maps = compute_maps(scene, spacing_m=spacing_m, failed=failed)
-    measured = _measured_uvi(site, enclosure_id, day)
-    positions = _positions(record, raw_maps, measured["position"])
+    measured = steps.measured_uvi(site, enclosure_id, day)
+    positions = steps.measuring_positions(record, raw_maps, measured["position"])
     points = point_values(scene, positions) if len(positions) else positions
     points = points.merge(measured, on="position", how="left") \
         if len(points) else points.assign(measured_uvi=pd.Series(dtype=float))
-    calibration = _calibrate(points) if len(points) else 1.0
+    calibration = steps.calibration_factor(points) if len(points) else 1.0
     if len(points):
         points["modelled_uvi"] = points["uvi"] * calibration
     notes.append(f"Model scaled by {calibration:.2f} to match the UV Index readings of {day}."
                  if calibration != 1.0 else
                  "No UV Index readings at named positions on the audit day: the model shows "
                  "the lamps at their rated output (as new).")
-    maps = _scale_maps(raw_maps, calibration)
+    maps = steps.scale_maps(raw_maps, calibration)
     stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
 
     basking = [s.name for s in scene.all_surfaces if s.kind == "basking"] or ["floor"]
@@ -518,7 +320,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
 
     schedules = {p.id: lamp_schedule(site, p) for p in record.lamps}
     profiles = daily_profiles(schedules, day) if schedules else None
-    at_peak = _per_lamp(scene, peak_point[None, :], failed)
+    at_peak = steps.per_lamp_values(scene, peak_point[None, :], failed)
     uvi_peak = {k: calibration * float(v[0]) for k, v in at_peak["uvi"].items()}
     vitd_peak = {k: calibration * float(v[0]) for k, v in at_peak["vitamin_d_w_m2"].items()}
     basking_dose = animal = monthly = None
@@ -532,7 +334,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                                      vitamin_d_w_m2_full=vitd_peak, uvi_range=max_range,
                                      reference_latitude_deg=info.latitude_deg)
         if record.time_budget:
-            places = _places(record, scene)
+            places = steps.budget_places(record, scene)
             unknown = [k for k in record.time_budget if k not in places]
             if unknown:
                 notes.append(f"Time budget place(s) {unknown} are not surfaces or positions; "
@@ -540,7 +342,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
             else:
                 by_place, vitd_place = {}, {}
                 for name in record.time_budget:
-                    per = _per_lamp(scene, places[name], failed)
+                    per = steps.per_lamp_values(scene, places[name], failed)
                     by_place[name] = {k: calibration * float(v.mean())
                                       for k, v in per["uvi"].items()}
                     vitd_place[name] = {k: calibration * float(v.mean())
@@ -565,12 +367,12 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                "peak_uvi": float(sun["uvi"].max()),
                "daily_sed": float(clear_sky_daily_dose_sed(info.latitude_deg, day))}
 
-    lamp_spectra, spectra = _spectra(site, record, scene)
+    lamp_spectra, spectra = steps.lamp_spectra(site, record, scene)
     sun_ref = metrics.sun_reference()
     short = [m["short_uvb_fraction"] for m in spectra.values()
              if m.get("uvb_w_m2", 0) > 0 and math.isfinite(m.get("short_uvb_fraction", math.nan))]
-    keeper = _keeper_limit(scene, record, failed)
-    lamps, decays = _lamp_table(site, record, day, zone.max_uvi_low if zone else math.nan)
+    keeper = steps.keeper_limit(scene, record, failed)
+    lamps, decays = steps.lamp_table(site, record, day, zone.max_uvi_low if zone else math.nan)
     replace_by = None
     if lamps is not None and len(lamps) and lamps["replace_by"].notna().any():
         replace_by = pd.Timestamp(lamps["replace_by"].dropna().min()).date()
@@ -578,7 +380,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     screens = [s.transmission for s in scene.screens if s.transmission is not None]
     action_inputs = dict(
         current_height_m=float(main.z_m - peak_point[2]) if main else None,
-        height_for_uvi=_height_for_uvi(scene, main, peak_point, failed, calibration)
+        height_for_uvi=steps.height_for_uvi(scene, main, peak_point, failed, calibration)
         if main else None,
         screen_transmission=min(screens) if screens else None,
         floor_area_m2=record.width_m * record.depth_m, replacement_date=replace_by,
@@ -603,7 +405,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
 
     failures, monte_carlo = (pd.DataFrame(), None)
     if max_range and with_failures:
-        failures, monte_carlo = _failure_table(scene, peak_surface, failed, max_range,
+        failures, monte_carlo = steps.failure_table(scene, peak_surface, failed, max_range,
                                                calibration, emitter_failure_probability)
     if monte_carlo is not None:
         notes.append(

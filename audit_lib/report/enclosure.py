@@ -163,8 +163,12 @@ def points_table(audit) -> pd.DataFrame:
     if p is None or not len(p):
         return pd.DataFrame({"note": ["no named positions or position readings"]})
     cols = ["position", "x_m", "y_m", "z_m", "modelled_uvi", "measured_uvi"]
-    if "measured_uvi_raw" in p and not np.allclose(p["measured_uvi_raw"].fillna(0),
-                                                   p["measured_uvi"].fillna(0)):
+    if "measured_uvi_raw" in p and "measured_uvi" in p:
+        raw = pd.to_numeric(p["measured_uvi_raw"], errors="coerce").fillna(0).to_numpy(float)
+        used = pd.to_numeric(p["measured_uvi"], errors="coerce").fillna(0).to_numpy(float)
+    else:
+        raw = used = np.zeros(0)
+    if not np.allclose(raw, used):
         cols.append("measured_uvi_raw")  # meter mismatch correction applied
     return p[[c for c in cols if c in p.columns]].round(2).set_index("position")
 

@@ -1,0 +1,225 @@
+"""The stages of an enclosure audit, each a thin call of the part that owns it.
+
+Used by :func:`audit_lib.audit.audit_enclosure`; the choices these functions make (which
+figure feeds which check, how the model is calibrated to readings) are described in
+:mod:`audit_lib.audit`.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import replace
+
+import numpy as np
+import pandas as pd
+
+from audit_lib.errors import AuditWarning
+
+#: Grid of the representative points of a surface in a time budget (ny, nx).
+PLACE_SHAPE = (6, 6)
+
+
+def only_lamp(scene, lamp):
+    """The scene with one placed lamp only (its contribution alone)."""
+    return replace(scene, lamps=(lamp,))
+
+
+def failed_of(failed, lamp_id):
+    """The failure labels that belong to one lamp."""
+    return tuple(f for f in failed if f.startswith(f"{lamp_id}/"))
+
+
+def per_lamp_values(scene, points, failed, quantities=("uvi", "vitamin_d_w_m2")):
+    """Per lamp id, the quantities at points (full output): {q: {lamp: (n,) array}}."""
+    from audit_lib.scene import evaluate_points
+
+    out = {q: {} for q in quantities}
+    for lamp in scene.lamps:
+        ev = evaluate_points(only_lamp(scene, lamp), points, quantities,
+                             failed=failed_of(failed, lamp.id))
+        for q in quantities:
+            out[q][lamp.id] = ev.values[q]
+    return out
+
+
+def measured_uvi(site, enclosure_id, audit_date):
+    """UV Index readings of the audit day per position, mismatch-corrected where possible.
+
+    The correction (:mod:`audit_lib.meter_corrections`) applies where the site gives the
+    meter's spectral response; the raw mean stays beside the corrected one.
+    """
+    rows = site.readings_of(enclosure_id)
+    if rows.empty:
+        return pd.DataFrame({"position": pd.Series(dtype=str),
+                             "measured_uvi": pd.Series(dtype=float),
+                             "measured_uvi_raw": pd.Series(dtype=float)})
+    day = rows[(pd.to_datetime(rows["date"]).dt.date == audit_date) & (rows["quantity"] == "uvi")
+               & (rows["position"].astype(str) != "")].copy()
+    day["raw"] = day["value_si"]
+    if any(m.spectral_response for m in site.records.meters) and len(day):
+        from audit_lib.meter_corrections import correct_site_readings
+
+        corrected = correct_site_readings(site).loc[day.index, "value_si_corrected"]
+        day["value_si"] = corrected.fillna(day["raw"])
+    means = day.groupby("position", as_index=False)[["value_si", "raw"]].mean()
+    return means.rename(columns={"value_si": "measured_uvi", "raw": "measured_uvi_raw"})
+
+
+def measuring_positions(record, maps, measured_at) -> pd.DataFrame:
+    """Named positions, plus surfaces measured by name (at their brightest cell)."""
+    rows = [{"position": p.id, "x_m": p.x_m, "y_m": p.y_m, "z_m": p.z_m}
+            for p in record.positions]
+    named = {r["position"] for r in rows}
+    for name in measured_at:
+        if name in named or name not in maps:
+            continue
+        m = maps[name]
+        iy, ix = np.unravel_index(np.argmax(m.values["uvi"]), m.values["uvi"].shape)
+        rows.append({"position": name, "x_m": float(m.x_m[ix]), "y_m": float(m.y_m[iy]),
+                     "z_m": m.surface.z_m})
+    return pd.DataFrame(rows, columns=["position", "x_m", "y_m", "z_m"])
+
+
+def calibration_factor(points: pd.DataFrame) -> float:
+    """Median of measured / modelled UV Index over the positions with a reading [-]."""
+    ok = points.dropna(subset=["measured_uvi"])
+    ok = ok[(ok["uvi"] > 0) & (ok["measured_uvi"] >= 0)]
+    if ok.empty:
+        return 1.0
+    return float(np.median(ok["measured_uvi"] / ok["uvi"]))
+
+
+def scale_maps(maps, factor):
+    """Every quantity of every map times one factor (all are linear in lamp output)."""
+    if factor == 1.0:
+        return maps
+    return {name: replace(m, values={q: v * factor for q, v in m.values.items()})
+            for name, m in maps.items()}
+
+
+def budget_places(record, scene):
+    """Representative points of each place of the time budget: {name: (n, 3) points}."""
+    from audit_lib.scene import surface_grid
+
+    places = {}
+    for s in scene.all_surfaces:
+        places[s.name] = surface_grid(s, shape=PLACE_SHAPE)[2]
+    for p in record.positions:
+        places[p.id] = np.array([[p.x_m, p.y_m, p.z_m]])
+    return places
+
+
+def lamp_table(site, record, audit_date, threshold):
+    """Replacement schedule rows and decay analyses of an enclosure's lamps."""
+    from audit_lib.decay import analyse_lamp_decay, replacement_schedule
+    from audit_lib.forecast import schedule_daily_hours
+
+    installs = pd.DataFrame([{
+        "enclosure": record.id, "lamp": p.id, "installed_on": pd.Timestamp(p.installed),
+        "removed_on": pd.NaT, "lamp_model": p.model, "note": p.note,
+        "daily_hours": p.daily_hours if p.daily_hours is not None else
+        schedule_daily_hours(site.schedule(p.schedule))} for p in record.lamps])
+    if installs.empty:
+        return installs, []
+    readings = site.readings_of(record.id)
+    table = replacement_schedule(readings, installs, threshold, today=audit_date)
+    table.insert(4, "age_days", [(pd.Timestamp(audit_date) - t).days
+                                 for t in table["installed_on"]])
+    decays = [analyse_lamp_decay(readings, installs, record.id, p.id, threshold,
+                                 today=audit_date) for p in record.lamps]
+    return table.reset_index(drop=True), [d for d in decays if d is not None and len(d.points)]
+
+
+def lamp_spectra(site, record, scene):
+    """Spectrum metrics per lamp model (LED arrays: flux-weighted sum of emitter types)."""
+    from audit_lib.assemble import model_spectrum
+    from audit_lib.emitters import MODEL_WAVELENGTH_NM, spectral_flux
+    from audit_lib.lamps import LedArray
+    from audit_lib.metrics import spectrum_metrics
+    from audit_lib.spectra import Spectrum
+
+    spectra, metrics = {}, {}
+    built = {p.name: p.lamp for p in scene.lamps}
+    for place in record.lamps:
+        if place.model in spectra:
+            continue
+        model, lamp = site.lamp_model(place.model), built[place.id]
+        spectrum = model_spectrum(site, model)
+        if spectrum is None and isinstance(lamp, LedArray):
+            counts = {}
+            for e in lamp.emitters:
+                counts[e.type] = counts.get(e.type, 0) + 1
+            total = np.zeros_like(MODEL_WAVELENGTH_NM)
+            for t in lamp.emitter_types:
+                total += counts.get(t.name, 0) * spectral_flux(t)[1]
+            spectrum = Spectrum(MODEL_WAVELENGTH_NM, total, name=model.name,
+                                source="modelled emitters")
+        if spectrum is not None:
+            spectra[place.model] = spectrum
+            metrics[place.model] = spectrum_metrics(spectrum)
+    return spectra, metrics
+
+
+def keeper_limit(scene, record, failed):
+    """Shortest keeper limit over lamps, at the working distance below each lamp [s]."""
+    from audit_lib.metrics import keeper_limit_s
+    from audit_lib.scene import evaluate_points
+
+    distance = record.keeper_working_distance_m
+    if not distance or not scene.lamps:
+        return None
+    limits = []
+    for lamp in scene.lamps:
+        point = np.array([[lamp.x_m, lamp.y_m, lamp.z_m - distance]])
+        ev = evaluate_points(only_lamp(scene, lamp), point, ("actinic_w_m2",),
+                             failed=failed_of(failed, lamp.id))
+        actinic = float(ev.values["actinic_w_m2"][0])
+        if math.isfinite(actinic):
+            limits.append(float(keeper_limit_s(actinic)))
+    return min(limits) if limits else None
+
+
+def height_for_uvi(scene, lamp, point, failed, calibration):
+    """Callable: lamp height above the basking point giving a UV Index there [UVI -> m]."""
+    from scipy.optimize import brentq
+
+    from audit_lib.scene import evaluate_points
+
+    def uvi_at(height):
+        moved = replace(lamp, z_m=point[2] + height)
+        with warnings.catch_warnings():  # scanning heights leaves any measured range
+            warnings.simplefilter("ignore", AuditWarning)
+            ev = evaluate_points(only_lamp(scene, moved), point[None, :], ("uvi",),
+                                 failed=failed_of(failed, lamp.id))
+        return calibration * float(ev.values["uvi"][0])
+
+    def height_for(target):
+        lo, hi = 0.03, 3.0
+        if not uvi_at(lo) >= target >= uvi_at(hi):
+            return math.nan
+        return float(brentq(lambda h: uvi_at(h) - target, lo, hi, xtol=1e-3))
+
+    return height_for
+
+
+def failure_table(scene, surface, failed, uvi_range, calibration, probability, seed=0):
+    """Deterministic and Monte Carlo failure scenarios on the basking surface."""
+    from audit_lib.failures import failure_scenarios, monte_carlo_failures
+    from audit_lib.lamps import LedArray
+
+    if not any(isinstance(p.lamp, LedArray) for p in scene.lamps):
+        return pd.DataFrame(), None
+    lo, hi = (v / calibration for v in uvi_range)
+    scenarios = failure_scenarios(scene, surface, out=failed, worst=1, uvi_range=(lo, hi),
+                                  shape=(12, 12))
+    scenarios += failure_scenarios(scene, surface, worst=2, uvi_range=(lo, hi),
+                                   shape=(12, 12))[1:]
+    rows = [{"scenario": s.name, "emitters_out": ", ".join(s.failed) or "none",
+             "max_uvi": calibration * s.statistics.maximum["uvi"],
+             "mean_uvi": calibration * s.statistics.mean["uvi"],
+             "share_in_range": s.statistics.share_in_uvi_range} for s in scenarios]
+    mc = monte_carlo_failures(scene, surface, (lo, hi), probability, n_trials=2000,
+                              seed=seed, shape=(12, 12))
+    # shares are the same for the calibrated range; label the study with the zone's range
+    return pd.DataFrame(rows), replace(mc, uvi_range=tuple(uvi_range))
