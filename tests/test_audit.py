@@ -172,3 +172,16 @@ def test_readings_corrected_for_meter_mismatch(tmp_path):
     points = audit_enclosure(site, enclosure.id).points.dropna(subset=["measured_uvi"])
     assert len(points)
     assert np.allclose(points["measured_uvi"], points["measured_uvi_raw"] * factor, rtol=1e-9)
+
+
+def test_no_readings_on_the_audit_day_leaves_the_model_as_rated(small):
+    """Without readings on the audit day the model is not scaled and the report says so
+    (linearity: a factor of 1 keeps the rated output); the tables still render."""
+    from audit_lib.report.enclosure import points_table, report_data
+
+    audit = audit_enclosure(small, small.records.enclosures[1].id, audit_date="2020-06-01")
+    assert audit.calibration == 1.0
+    assert any("rated output" in n for n in audit.notes)
+    table = points_table(audit)
+    assert table["measured_uvi"].isna().all()
+    assert report_data(audit)["results"]["checks"]
