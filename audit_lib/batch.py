@@ -205,9 +205,10 @@ def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str 
         params = {"site_dir": str(site_dir)}
         if audit_date:
             params["audit_date"] = audit_date
-        tasks.append({"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
-                      "workbook": str(overview), "parameters": params,
-                      "out_dir": str(out_dir), "overview": True})
+        # the longest workbook goes first so it does not run alone at the end
+        tasks.insert(0, {"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
+                         "workbook": str(overview), "parameters": params,
+                         "out_dir": str(out_dir), "overview": True})
     return tasks
 
 

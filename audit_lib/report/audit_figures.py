@@ -96,10 +96,12 @@ def plot_lamp_spectra(audit):
 
 
 def prepare_figures() -> None:
-    """Show inline figures as PNG with fast compression (in a Jupyter kernel; else nothing).
+    """Make inline figures cheaper to produce (in a Jupyter kernel; else nothing).
 
-    zlib level 1 instead of the default 6 makes the files about 10 % larger and their
-    encoding about a third faster (measured on the report's figures).
+    PNG with zlib level 1 instead of 6 (files about 10 % larger, encoding about a third
+    faster) and no "tight" bounding box (the figures use constrained layout already, and a
+    tight box costs one more full draw): about 40 % less time per figure, measured on the
+    report's figures.
     """
     try:
         from IPython import get_ipython
@@ -108,5 +110,5 @@ def prepare_figures() -> None:
         return
     if get_ipython() is None:
         return
-    InlineBackend.instance().print_figure_kwargs = {"bbox_inches": "tight",
+    InlineBackend.instance().print_figure_kwargs = {"bbox_inches": None,
                                                     "pil_kwargs": {"compress_level": 1}}
