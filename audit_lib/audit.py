@@ -273,7 +273,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     from audit_lib.assemble import build_scene, failed_labels, lamp_schedule
     from audit_lib.dose import TimeBudget, integrate_daily_dose, integrate_time_budget
     from audit_lib.dose import monthly_table as dose_monthly_table
-    from audit_lib.photoperiod import daily_profiles
+    from audit_lib.photoperiod import daily_profiles, lit_hours_of_table
     from audit_lib.scene import compute_maps, point_values, statistics_table
     from audit_lib.site_checks import calibration_warnings
     from audit_lib.sunlight import clear_sky_daily_dose_sed, clear_sky_uvi_day
@@ -328,8 +328,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     if profiles is not None:
         basking_dose = integrate_daily_dose(uvi_peak, profiles, vitamin_d_w_m2_full=vitd_peak,
                                             uvi_range=max_range)
-        light_hours = float((profiles.to_numpy() > 0).any(axis=1).sum()
-                            * (profiles.index[1] - profiles.index[0]))
+        light_hours = lit_hours_of_table(profiles)
         monthly = dose_monthly_table(uvi_peak, schedules, day.year,
                                      vitamin_d_w_m2_full=vitd_peak, uvi_range=max_range,
                                      reference_latitude_deg=info.latitude_deg)

@@ -26,8 +26,8 @@ def only_lamp(scene, lamp):
 
 
 def failed_of(failed, lamp_id):
-    """The failure labels that belong to one lamp."""
-    return tuple(f for f in failed if f.startswith(f"{lamp_id}/"))
+    """The failure labels that belong to one lamp: the lamp itself or its emitters."""
+    return tuple(f for f in failed if f == lamp_id or f.startswith(f"{lamp_id}/"))
 
 
 def per_lamp_values(scene, points, failed, quantities=("uvi", "vitamin_d_w_m2")):
@@ -112,7 +112,7 @@ def budget_places(record, scene):
 
 def lamp_table(site, record, audit_date, threshold):
     """Replacement schedule rows and decay analyses of an enclosure's lamps."""
-    from audit_lib.decay import analyse_lamp_decay, replacement_schedule
+    from audit_lib.decay import lamp_decays, schedule_table
     from audit_lib.forecast import schedule_daily_hours
 
     installs = pd.DataFrame([{
@@ -122,13 +122,11 @@ def lamp_table(site, record, audit_date, threshold):
         schedule_daily_hours(site.schedule(p.schedule))} for p in record.lamps])
     if installs.empty:
         return installs, []
-    readings = site.readings_of(record.id)
-    table = replacement_schedule(readings, installs, threshold, today=audit_date)
+    pairs = lamp_decays(site.readings_of(record.id), installs, threshold, today=audit_date)
+    table = schedule_table(pairs)
     table.insert(4, "age_days", [(pd.Timestamp(audit_date) - t).days
                                  for t in table["installed_on"]])
-    decays = [analyse_lamp_decay(readings, installs, record.id, p.id, threshold,
-                                 today=audit_date) for p in record.lamps]
-    return table.reset_index(drop=True), [d for d in decays if d is not None and len(d.points)]
+    return table, [decay for _, decay in pairs if len(decay.points)]
 
 
 def lamp_spectra(site, record, scene):

@@ -558,6 +558,43 @@ def analyse_lamp_decay(readings: pd.DataFrame, installs: pd.DataFrame, enclosure
                      fit, forecast, state)
 
 
+def lamp_decays(readings: pd.DataFrame, installs: pd.DataFrame, thresholds, *, today=None,
+                quantity: str = "uvi") -> list[tuple]:
+    """Decay analyses of every lamp in place on ``today``.
+
+    Parameters
+    ----------
+    readings, installs, thresholds, today, quantity
+        As for :func:`replacement_schedule`.
+
+    Returns
+    -------
+    list of (install row, LampDecay)
+        One pair per lamp in place, in install order.
+    """
+    today = pd.Timestamp.today().normalize() if today is None else pd.Timestamp(today)
+    current = installs[(installs["installed_on"] <= today)
+                       & (installs["removed_on"].isna() | (installs["removed_on"] > today))]
+    wanted = readings[readings["quantity"] == quantity]
+    by_lamp = {key: group for key, group in wanted.groupby(["enclosure", "lamp"], sort=False)}
+    all_lamps_on = wanted[wanted["lamp"].fillna("") == ""]
+    by_enclosure = {key: group for key, group in all_lamps_on.groupby("enclosure", sort=False)}
+    empty = wanted.iloc[:0]
+    installs_of = {key: group for key, group in installs.groupby(["enclosure", "lamp"],
+                                                                 sort=False)}
+    pairs = []
+    for install in current.itertuples(index=False):
+        enclosure, lamp = install.enclosure, install.lamp
+        result = analyse_lamp_decay(by_lamp.get((enclosure, lamp), empty),
+                                    installs_of[(enclosure, lamp)], enclosure, lamp,
+                                    _threshold_for(thresholds, enclosure, lamp), today=today,
+                                    quantity=quantity,
+                                    enclosure_readings=by_enclosure.get(enclosure))
+        if result is not None:
+            pairs.append((install, result))
+    return pairs
+
+
 def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresholds, *,
                          today=None, quantity: str = "uvi") -> pd.DataFrame:
     """Site-wide lamp replacement schedule, one row per lamp in place today.
@@ -579,34 +616,29 @@ def replacement_schedule(readings: pd.DataFrame, installs: pd.DataFrame, thresho
     Returns
     -------
     pandas.DataFrame
+        See :func:`schedule_table`.
+    """
+    return schedule_table(lamp_decays(readings, installs, thresholds, today=today,
+                                      quantity=quantity))
+
+
+def schedule_table(pairs) -> pd.DataFrame:
+    """The replacement schedule of :func:`lamp_decays` results.
+
+    Returns
+    -------
+    pandas.DataFrame
         Columns ``enclosure``, ``lamp``, ``lamp_model``, ``installed_on``, ``hours_now`` [h],
         ``points``, ``model``, ``loss_per_1000h_pct`` [%], ``last_value``, ``target_min``,
         ``replace_by`` (forecast date), ``replace_by_early``, ``replace_by_late`` (68 %
         band), ``state`` (one of :data:`STATES`), sorted by state then date.
     """
-    today = pd.Timestamp.today().normalize() if today is None else pd.Timestamp(today)
-    current = installs[(installs["installed_on"] <= today)
-                       & (installs["removed_on"].isna() | (installs["removed_on"] > today))]
-    wanted = readings[readings["quantity"] == quantity]
-    by_lamp = {key: group for key, group in wanted.groupby(["enclosure", "lamp"], sort=False)}
-    all_lamps_on = wanted[wanted["lamp"].fillna("") == ""]
-    by_enclosure = {key: group for key, group in all_lamps_on.groupby("enclosure", sort=False)}
-    empty = wanted.iloc[:0]
-    installs_of = {key: group for key, group in installs.groupby(["enclosure", "lamp"],
-                                                                 sort=False)}
     rows = []
-    for install in current.itertuples(index=False):
-        enclosure, lamp = install.enclosure, install.lamp
-        result = analyse_lamp_decay(by_lamp.get((enclosure, lamp), empty),
-                                    installs_of[(enclosure, lamp)], enclosure, lamp,
-                                    _threshold_for(thresholds, enclosure, lamp), today=today,
-                                    quantity=quantity,
-                                    enclosure_readings=by_enclosure.get(enclosure))
-        if result is None:
-            continue
+    for install, result in pairs:
         fit, fc, points = result.fit, result.forecast, result.points
         rows.append({
-            "enclosure": enclosure, "lamp": lamp, "lamp_model": install.lamp_model,
+            "enclosure": result.enclosure, "lamp": result.lamp,
+            "lamp_model": install.lamp_model,
             "installed_on": install.installed_on, "hours_now": result.hours_now,
             "points": len(points), "model": fit.best or "",
             "loss_per_1000h_pct": 100.0 * fit.best_fit.loss_per_1000h if fit.best else math.nan,

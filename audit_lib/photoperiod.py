@@ -539,6 +539,15 @@ def lit_hours(profile: DailyProfile) -> float:
     return float(np.count_nonzero(profile.fraction > 0) * profile.step_s / 3600.0)
 
 
+def lit_hours_of_table(profiles) -> float:
+    """Hours of the day with any lamp of a :func:`daily_profiles` table on [h].
+
+    Counted in whole steps (steps lit × 24 h / steps per day), so a 14 h day is 14.0 exactly.
+    """
+    table = np.asarray(profiles, dtype=float)
+    return float(np.count_nonzero((table > 0).any(axis=1)) * 24.0 / table.shape[0])
+
+
 def full_output_hours(profile: DailyProfile) -> float:
     """Integral of the output fraction over the day, in hours at full output [h]."""
     return float(np.sum(profile.fraction) * profile.step_s / 3600.0)

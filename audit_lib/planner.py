@@ -24,6 +24,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from audit_lib.audit_steps import budget_places, failed_of, only_lamp, per_lamp_values
+from audit_lib.audit_steps import height_for_uvi as height_search
 from audit_lib.errors import AuditWarning, InputError
 from audit_lib.scenarios import (
     BLANK_ENCLOSURE_ID,
@@ -40,7 +42,6 @@ from audit_lib.scenarios import (
 
 #: Map grid of the panel (ny, nx) on the floor; other surfaces use the same cell size.
 DEFAULT_SHAPE = (100, 100)
-_PLACE_SHAPE = (6, 6)  # points per surface for the animal's time budget (as the audit)
 
 
 @dataclass
@@ -133,14 +134,6 @@ def _utc_offset_h(time_zone: str, day: dt.date) -> float:
 
     noon = dt.datetime.combine(day, dt.time(12), tzinfo=ZoneInfo(time_zone))
     return noon.utcoffset().total_seconds() / 3600.0
-
-
-def _only(scene, lamp):
-    return replace(scene, lamps=(lamp,))
-
-
-def _failed_of(failed, lamp_id):
-    return tuple(f for f in failed if f == lamp_id or f.startswith(f"{lamp_id}/"))
 
 
 class WhatIfPlanner:
@@ -368,7 +361,7 @@ class WhatIfPlanner:
         peak = np.array([pm.x_m[ix], pm.y_m[iy], pm.surface.z_m])
         refuge = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
         point_key = (self._place_key(c), failed, tuple(peak))
-        per_lamp = self._cached("peak", point_key, lambda: self._per_lamp(
+        per_lamp = self._cached("peak", point_key, lambda: per_lamp_values(
             scene, peak[None, :], failed))
         uvi_peak = {k: share * float(v[0]) for k, v in per_lamp["uvi"].items()}
         vitd_peak = {k: share * float(v[0]) for k, v in per_lamp["vitamin_d_w_m2"].items()}
@@ -401,18 +394,6 @@ class WhatIfPlanner:
 
     # --- stages (each a library call) -----------------------------------------------------
 
-    @staticmethod
-    def _per_lamp(scene, points, failed, quantities=("uvi", "vitamin_d_w_m2")):
-        from audit_lib.scene import evaluate_points
-
-        out = {q: {} for q in quantities}
-        for lamp in scene.lamps:
-            ev = evaluate_points(_only(scene, lamp), points, quantities,
-                                 failed=_failed_of(failed, lamp.id))
-            for q in quantities:
-                out[q][lamp.id] = ev.values[q]
-        return out
-
     def _time(self, site, scene, c, failed, uvi_peak, vitd_peak, max_range, zone, share):
         from audit_lib.assemble import lamp_schedule
         from audit_lib.dose import (
@@ -421,7 +402,7 @@ class WhatIfPlanner:
             integrate_time_budget,
             uvi_series,
         )
-        from audit_lib.photoperiod import DAY_S, daily_profiles
+        from audit_lib.photoperiod import daily_profiles, lit_hours_of_table
 
         record = site.enclosure(self.enclosure_id)
         if not record.lamps:
@@ -432,8 +413,7 @@ class WhatIfPlanner:
         daily = uvi_series(uvi_peak, profiles)
         dose = integrate_daily_dose(uvi_peak, profiles, vitamin_d_w_m2_full=vitd_peak,
                                     uvi_range=max_range)
-        lit_steps = int((profiles.to_numpy() > 0).any(axis=1).sum())
-        hours = lit_steps * (DAY_S / len(profiles)) / 3600.0  # whole steps: 14 h is 14.0
+        hours = lit_hours_of_table(profiles)
         mean_uvi = None
         budget = dict(record.time_budget)
         if budget:
@@ -453,13 +433,10 @@ class WhatIfPlanner:
 
     def _place_values(self, record, scene, failed):
         """Per place of the time budget, per lamp, the mean UVI and vitamin-D irradiance."""
-        from audit_lib.scene import surface_grid
-
-        points = {s.name: surface_grid(s, shape=_PLACE_SHAPE)[2] for s in scene.all_surfaces}
-        points.update({p.id: np.array([[p.x_m, p.y_m, p.z_m]]) for p in record.positions})
+        points = budget_places(record, scene)
         out = {}
         for name, pts in points.items():
-            per = self._per_lamp(scene, pts, failed)
+            per = per_lamp_values(scene, pts, failed)
             out[name] = {q: {k: float(v.mean()) for k, v in per[q].items()} for q in per}
         return out
 
@@ -476,8 +453,8 @@ class WhatIfPlanner:
             out = []
             for lamp in scene.lamps:
                 point = np.array([[lamp.x_m, lamp.y_m, lamp.z_m - distance]])
-                ev = evaluate_points(_only(scene, lamp), point, ("actinic_w_m2",),
-                                     failed=_failed_of(failed, lamp.id))
+                ev = evaluate_points(only_lamp(scene, lamp), point, ("actinic_w_m2",),
+                                     failed=failed_of(failed, lamp.id))
                 out.append(float(ev.values["actinic_w_m2"][0]))
             return out
 
@@ -527,21 +504,7 @@ class WhatIfPlanner:
                 memo[target] = search(target)
             return memo[target]
 
-        def search(target):
-            from scipy.optimize import brentq
-
-            from audit_lib.scene import evaluate_points
-
-            def uvi_at(height):
-                moved = replace(main, z_m=peak[2] + height)
-                ev = evaluate_points(_only(scene, moved), peak[None, :], ("uvi",),
-                                     failed=_failed_of(failed, main.id))
-                return share * float(ev.values["uvi"][0])
-
-            lo, hi = 0.03, 3.0
-            if not uvi_at(lo) >= target >= uvi_at(hi):
-                return math.nan
-            return float(brentq(lambda h: uvi_at(h) - target, lo, hi, xtol=1e-3))
+        search = height_search(scene, main, np.asarray(peak, float), failed, share)
 
         sun_short = self._cached("sun_ref", 0, lambda: sun_reference()["short_uvb_fraction"])
         return assess_enclosure(

@@ -185,3 +185,13 @@ def test_no_readings_on_the_audit_day_leaves_the_model_as_rated(small):
     table = points_table(audit)
     assert table["measured_uvi"].isna().all()
     assert report_data(audit)["results"]["checks"]
+
+
+def test_failure_labels_of_a_whole_lamp_and_of_emitters():
+    """A failure label is the lamp id (a tube or point lamp out) or '<lamp>/<emitter>' (one
+    LED out); both belong to that lamp and to no other (label convention of audit_lib.failures)."""
+    from audit_lib.audit_steps import failed_of
+
+    failed = ("tube", "bar/3", "bar-2/1")
+    assert failed_of(failed, "tube") == ("tube",)
+    assert failed_of(failed, "bar") == ("bar/3",)

@@ -149,3 +149,16 @@ def test_schedule_by_season_hemispheres():
     assert full_output_hours(daily_profile(by_months, dt.date(2026, 11, 15))) == 8.0
     with pytest.raises(InputError, match="seasons: 'monsoon' is not a season"):
         schedule_by_season({"monsoon": short}, default=long_)
+
+
+def test_lit_hours_of_table_counts_whole_steps():
+    """A 06:00-20:00 schedule lights 14 h exactly (elementary arithmetic: whole one-minute
+    steps, no floating-point drift that would put 14 h 'above' a 14 h limit)."""
+    import datetime as dt
+
+    from audit_lib.photoperiod import OnOffSchedule, daily_profiles, lit_hours_of_table
+
+    profiles = daily_profiles({"a": OnOffSchedule(on="06:00", off="20:00"),
+                               "b": OnOffSchedule(on="07:00", off="19:00")},
+                              dt.date(2026, 6, 1))
+    assert lit_hours_of_table(profiles) == 14.0
