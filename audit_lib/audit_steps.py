@@ -81,10 +81,22 @@ def measuring_positions(record, maps, measured_at) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["position", "x_m", "y_m", "z_m"])
 
 
+#: Readings below this UV Index are not used to scale the model: a handheld meter shows
+#: the index in steps of 0.1, so a low reading carries a large rounding error (common
+#: practice: keep rounding error at or below 10 %) [-].
+CALIBRATION_MIN_UVI = 0.5
+
+
 def calibration_factor(points: pd.DataFrame) -> float:
-    """Median of measured / modelled UV Index over the positions with a reading [-]."""
+    """Median of measured / modelled UV Index over the positions with a usable reading [-].
+
+    Positions reading at least :data:`CALIBRATION_MIN_UVI` are used; if none does, every
+    position with a reading above zero. 1.0 (no scaling) when there is no usable reading.
+    """
     ok = points.dropna(subset=["measured_uvi"])
-    ok = ok[(ok["uvi"] > 0) & (ok["measured_uvi"] >= 0)]
+    ok = ok[(ok["uvi"] > 0) & (ok["measured_uvi"] > 0)]
+    strong = ok[ok["measured_uvi"] >= CALIBRATION_MIN_UVI]
+    ok = strong if len(strong) else ok
     if ok.empty:
         return 1.0
     return float(np.median(ok["measured_uvi"] / ok["uvi"]))

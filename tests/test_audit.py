@@ -195,3 +195,17 @@ def test_failure_labels_of_a_whole_lamp_and_of_emitters():
     failed = ("tube", "bar/3", "bar-2/1")
     assert failed_of(failed, "tube") == ("tube",)
     assert failed_of(failed, "bar") == ("bar/3",)
+
+
+def test_calibration_ignores_readings_at_meter_resolution():
+    """A hide reading 0.0 (below a meter's 0.1 display step) must not halve the model's
+    scale: the median uses readings of at least 0.5 UVI (rounding error <= 10 %, common
+    practice). Basking 6.0 measured vs 5.0 modelled gives 1.2 (ratio definition)."""
+    import pandas as pd
+
+    from audit_lib.audit_steps import calibration_factor
+
+    points = pd.DataFrame({"uvi": [5.0, 0.04], "measured_uvi": [6.0, 0.0]})
+    assert calibration_factor(points) == pytest.approx(1.2)
+    low = pd.DataFrame({"uvi": [0.2, 0.1], "measured_uvi": [0.3, 0.0]})
+    assert calibration_factor(low) == pytest.approx(1.5)
