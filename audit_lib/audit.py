@@ -75,7 +75,8 @@ class EnclosureAudit:
     monthly : pandas.DataFrame
         Month-by-month figures at the basking maximum (:func:`audit_lib.dose.monthly_table`).
     natural : dict
-        The sun's reference day: latitude, peak UV Index, daily SED.
+        The sun's clear-sky reference day: latitude, place ("the species' native range" when a
+        species gives its native latitude, else "the site"), peak UV Index, daily SED.
     verdicts : list of Verdict
         One per species.
     verdict, reason : str
@@ -353,18 +354,24 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                                                   uvi_range=mean_range)
                 mean_uvi = float(animal.mean_uvi_exposed)
 
-    utc_offset = _utc_offset_h(info.time_zone, day)
-    sun = clear_sky_uvi_day(info.latitude_deg, info.longitude_deg, day,
-                            utc_offset_h=utc_offset, step_s=600.0)
+    # the sun where the species lives (local solar time), else at the site (local clock time)
+    native = next((s.native_latitude_deg for s in sorted(species, key=lambda s: -s.zone)
+                   if s.native_latitude_deg is not None), None)
+    if native is None:
+        sun_lat, sun_lon, sun_offset, sun_place = (
+            info.latitude_deg, info.longitude_deg, _utc_offset_h(info.time_zone, day), "the site")
+    else:
+        sun_lat, sun_lon, sun_offset, sun_place = native, 0.0, 0.0, "the species' native range"
+    sun = clear_sky_uvi_day(sun_lat, sun_lon, day, utc_offset_h=sun_offset, step_s=600.0)
     daily = pd.DataFrame({"time_h": sun["time_h"].to_numpy(), "sun_uvi": sun["uvi"].to_numpy()})
     if profiles is not None:
         lamp_uvi = sum(profiles[k].to_numpy() * v for k, v in uvi_peak.items())
         daily["enclosure_uvi"] = np.interp(daily["time_h"], profiles.index.to_numpy(),
                                            lamp_uvi)
     daily = daily.set_index("time_h")
-    natural = {"latitude_deg": info.latitude_deg, "date": day,
+    natural = {"latitude_deg": sun_lat, "place": sun_place, "date": day,
                "peak_uvi": float(sun["uvi"].max()),
-               "daily_sed": float(clear_sky_daily_dose_sed(info.latitude_deg, day))}
+               "daily_sed": float(clear_sky_daily_dose_sed(sun_lat, day))}
 
     lamp_spectra, spectra = steps.lamp_spectra(site, record, scene)
     sun_ref = metrics.sun_reference()

@@ -431,6 +431,7 @@ class Species(Record):
     zone: int = Field(ge=1, le=4)
     uv_provision: Literal["gradient", "basking_patch"] = "gradient"
     basking_note: str = ""
+    native_latitude_deg: float | None = Field(default=None, ge=-90, le=90)
     note: str = ""
 
 

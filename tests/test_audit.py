@@ -102,10 +102,13 @@ def test_sun_reference_against_pvlib_and_madronich(small, dragon):
 
     info = small.records.site
     peak_h = float(dragon.daily["sun_uvi"].idxmax())
-    when = pd.Timestamp(dragon.audit_date.isoformat(), tz=info.time_zone) + \
-        pd.Timedelta(hours=peak_h)
+    if dragon.natural["place"] == "the site":
+        tz, lat, lon = info.time_zone, info.latitude_deg, info.longitude_deg
+    else:  # the species' native latitude, local solar time (longitude 0, UTC)
+        tz, lat, lon = "UTC", dragon.natural["latitude_deg"], 0.0
+    when = pd.Timestamp(dragon.audit_date.isoformat(), tz=tz) + pd.Timedelta(hours=peak_h)
     sza = float(pvlib.solarposition.get_solarposition(
-        pd.DatetimeIndex([when]), info.latitude_deg, info.longitude_deg)["apparent_zenith"].iloc[0])
+        pd.DatetimeIndex([when]), lat, lon)["apparent_zenith"].iloc[0])
     assert dragon.natural["peak_uvi"] == \
         pytest.approx(12.5 * math.cos(math.radians(sza)) ** 2.42, rel=0.03)
 
@@ -209,3 +212,18 @@ def test_calibration_ignores_readings_at_meter_resolution():
     assert calibration_factor(points) == pytest.approx(1.2)
     low = pd.DataFrame({"uvi": [0.2, 0.1], "measured_uvi": [0.3, 0.0]})
     assert calibration_factor(low) == pytest.approx(1.5)
+
+
+def test_sun_drawn_in_the_native_range_when_known():
+    """The species table's native latitude (demo data) moves the clear-sky reference there:
+    the sun's daily dose is the one at that latitude (Madronich 2007 via sunlight module)."""
+    from audit_lib.sunlight import clear_sky_daily_dose_sed
+
+    park = load_site(ROOT / "sample_sites" / "kestrel-moor-wildlife-park")
+    result = audit_enclosure(park, "rh-01", with_failures=False)
+    native = [s.native_latitude_deg for s in result.species if s.native_latitude_deg is not None]
+    assert native, "the demo's bearded dragon carries a native latitude"
+    assert result.natural["place"] == "the species' native range"
+    assert result.natural["latitude_deg"] == native[0]
+    assert result.natural["daily_sed"] == pytest.approx(
+        clear_sky_daily_dose_sed(native[0], result.audit_date))
