@@ -43,8 +43,32 @@ REPORTS_DIR = "reports"
 CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "value", "unit",
                "target_low", "target_high", "state", "reason", "error")
 _CHECK_KEYS = ("name", "value", "unit", "target_low", "target_high", "state", "reason")
-_WARM_UP = ("import audit_lib.audit, audit_lib.report.enclosure, audit_lib.report.audit_figures, "
-            "audit_lib.report.spectrum, matplotlib.pyplot, pandas, scipy.optimize, colour, pvlib")
+#: Code a worker's kernel runs once, while the main process validates the site: the heavy
+#: imports, and one small figure and one spectrum's metrics so fonts, colour tables and
+#: cached weights are loaded before the first workbook.
+_WARM_UP = """\
+def _audit_warm_up():
+    import matplotlib.pyplot as plt
+    import numpy as np
+    import pandas, pvlib, scipy.optimize  # noqa: F401
+    import audit_lib.audit, audit_lib.report.cautions, audit_lib.report.site_overview  # noqa
+    from audit_lib.metrics import spectrum_metrics
+    from audit_lib.report import audit_figures, enclosure  # noqa: F401
+    from audit_lib.spectra import Spectrum
+
+    wavelength = np.arange(250.0, 801.0)
+    peak = 1e-3 * np.exp(-0.5 * ((wavelength - 305.0) / 8.0) ** 2) + 1e-6
+    spectrum_metrics(Spectrum(wavelength, peak, name="warm-up"))
+    fig, ax = plt.subplots(figsize=(3, 2), layout="constrained")
+    fig.colorbar(ax.imshow(np.eye(3)), ax=ax).set_label("UV Index [-]")
+    ax.set_title("warm-up")
+    fig.canvas.draw()
+    plt.close(fig)
+
+
+_audit_warm_up()
+del _audit_warm_up
+"""
 _WORKER: dict = {}
 
 
@@ -133,16 +157,28 @@ def _inside(out_dir: Path, path: Path) -> Path:
 
 
 def _init_worker(warm_up: str) -> None:
+    import sys
     from multiprocessing.util import Finalize
 
+    # jsonschema (pulled in by nbformat) compiles an IRI grammar on import when the optional
+    # rfc3987-syntax package is present: about 1 s per process, for a string format the
+    # notebook schema never uses. Without it jsonschema simply skips that format check.
+    sys.modules.setdefault("rfc3987_syntax", None)
     from audit_lib.notebooks import WarmKernel, make_exporter
 
     kernel = WarmKernel(warm_up=warm_up)
     _WORKER["kernel"] = kernel
-    kernel.ensure_started()
+    kernel.launch()  # the kernel boots while this process imports and compiles below
     Finalize(kernel, kernel.shutdown, exitpriority=10)  # runs when the worker process ends
-    if "exporter" not in _WORKER:  # inherited from the main process when forked
-        _WORKER["exporter"] = make_exporter()
+    import papermill  # noqa: F401
+
+    _WORKER["exporter"] = make_exporter()
+    kernel.ensure_started()
+
+
+def _ready() -> int:
+    """A no-op task: returns once the worker has started (its initializer has run)."""
+    return os.getpid()
 
 
 def _first_line(text: str) -> str:
@@ -279,40 +315,56 @@ def results_csv(doc: dict) -> str:
     return buf.getvalue()
 
 
-def _execute(tasks: list[dict], jobs: int, progress: bool) -> list[dict]:
+def _start_pool(jobs: int) -> ProcessPoolExecutor:
+    """Start ``jobs`` workers now; each starts and warms its kernel in the background."""
     import multiprocessing
 
+    method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
+    pool = ProcessPoolExecutor(max_workers=jobs, mp_context=multiprocessing.get_context(method),
+                               initializer=_init_worker, initargs=(_WARM_UP,))
+    for _ in range(jobs):  # the first submission starts the processes
+        pool.submit(_ready)
+    return pool
+
+
+def _execute(pool: ProcessPoolExecutor, tasks: list[dict], progress: bool) -> list[dict]:
     from tqdm import tqdm
 
-    method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
-    context = multiprocessing.get_context(method)
-    if method == "fork":  # import and compile once here; every worker inherits them
-        import papermill  # noqa: F401
-
-        from audit_lib.notebooks import make_exporter
-
-        _WORKER.setdefault("exporter", make_exporter())
     done: list[dict] = []
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=context, initializer=_init_worker,
-                             initargs=(_WARM_UP,)) as pool:
-        futures = {pool.submit(_run_task, t): t for t in tasks}
-        bar = tqdm(total=len(tasks), unit="workbook", desc="auditing", disable=not progress)
-        try:
-            for future in as_completed(futures):
-                task = futures[future]
-                try:
-                    done.append(future.result())
-                except BrokenProcessPool:
-                    done.append({"id": task["id"], "name": task["name"], "error":
-                                 "the worker process running this workbook ended unexpectedly"})
-                except Exception as exc:  # noqa: BLE001
-                    done.append({"id": task["id"], "name": task["name"],
-                                 "error": f"{type(exc).__name__}: {_first_line(exc)}"})
-                bar.update(1)
-                bar.set_postfix_str(task["id"][:24])
-        finally:
-            bar.close()
+    futures = {pool.submit(_run_task, t): t for t in tasks}
+    bar = tqdm(total=len(tasks), unit="workbook", desc="auditing", disable=not progress)
+    try:
+        for future in as_completed(futures):
+            task = futures[future]
+            try:
+                done.append(future.result())
+            except BrokenProcessPool:
+                done.append({"id": task["id"], "name": task["name"], "error":
+                             "the worker process running this workbook ended unexpectedly"})
+            except Exception as exc:  # noqa: BLE001
+                done.append({"id": task["id"], "name": task["name"],
+                             "error": f"{type(exc).__name__}: {_first_line(exc)}"})
+            bar.update(1)
+            bar.set_postfix_str(task["id"][:24])
+    finally:
+        bar.close()
     return done
+
+
+def _order(tasks: list[dict], site) -> list[dict]:
+    """Longest first: the overview, then enclosures by their number of lamps and surfaces.
+
+    With a few workers and a dozen workbooks, starting the long ones first keeps a long
+    one from running alone at the end (longest-processing-time-first scheduling).
+    """
+    def weight(task: dict) -> int:
+        if task.get("overview"):
+            return 1_000_000
+        enclosure = site.enclosure(task["id"])
+        return sum(len(getattr(enclosure, name, None) or ())
+                   for name in ("lamps", "surfaces"))
+
+    return sorted(tasks, key=weight, reverse=True)
 
 
 def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
@@ -351,18 +403,25 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
 
     site_dir = Path(site_dir).resolve()
     out_dir = Path(out_dir).resolve()
-    site = load_site(site_dir)
-    ids = _select(site, only)
-    (out_dir / REPORTS_DIR).mkdir(parents=True, exist_ok=True)
-    for stale in (out_dir / REPORTS_DIR).glob(".*.part-*"):  # left by an interrupted run
-        stale.unlink(missing_ok=True)
-    previous = _previous(out_dir, site.name)
-    workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()
-    overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
-    tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook,
-                   overview_workbook if overview and overview_workbook.exists() else None)
-    jobs = max(1, min(jobs or os.cpu_count() or 1, len(tasks)))
-    by_id = {d["id"]: d for d in _execute(tasks, jobs, progress)}
+    # at most one worker per workbook; the count of enclosures is known only after loading
+    # the site, so it is bounded by ``only`` when given
+    limit = len(set(only)) + bool(overview) if only else None
+    jobs = max(1, min(jobs or os.cpu_count() or 1, limit or 1_000_000))
+    pool = _start_pool(jobs)  # workers start their kernels while the site is validated
+    try:
+        site = load_site(site_dir)
+        ids = _select(site, only)
+        (out_dir / REPORTS_DIR).mkdir(parents=True, exist_ok=True)
+        for stale in (out_dir / REPORTS_DIR).glob(".*.part-*"):  # left by an interrupted run
+            stale.unlink(missing_ok=True)
+        previous = _previous(out_dir, site.name)
+        workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()
+        overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
+        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook,
+                       overview_workbook if overview and overview_workbook.exists() else None)
+        by_id = {d["id"]: d for d in _execute(pool, _order(tasks, site), progress)}
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
 
     def outcome(enclosure_id: str, name: str) -> EnclosureOutcome:
         if enclosure_id in by_id:

@@ -13,7 +13,7 @@ import numpy as np
 
 
 def plot_maps(audit, quantity: str = "uvi"):
-    """One panel per surface (:func:`audit_lib.report.maps.plot_surface_map`), one colour scale.
+    """One panel per surface (:func:`audit_lib.report.maps.plot_surface_map`), one colour bar.
 
     Lamps are outlined, failed emitters crossed out and, for the UV Index, the ends of the
     zone's basking maximum range drawn as contours.
@@ -27,7 +27,7 @@ def plot_maps(audit, quantity: str = "uvi"):
     """
     import matplotlib.pyplot as plt
 
-    from audit_lib.report.maps import plot_surface_map
+    from audit_lib.report.maps import MAP_LABELS, plot_surface_map
 
     maps = list(audit.maps.values())
     cols = min(2, len(maps))
@@ -38,9 +38,14 @@ def plot_maps(audit, quantity: str = "uvi"):
     uvi_range = (audit.zone.max_uvi_low, audit.zone.max_uvi_high) \
         if quantity == "uvi" and audit.zone is not None else None
     for ax, m in zip(axes.flat, maps, strict=False):
-        plot_surface_map(m, quantity, uvi_range, audit.scene, ax, vmax=vmax)
+        plot_surface_map(m, quantity, uvi_range, audit.scene, ax, vmax=vmax, colorbar=False)
     for ax in list(axes.flat)[len(maps):]:
         ax.set_visible(False)
+    # one bar for the shared scale (one per panel repeated it and cost a third of the drawing)
+    used = list(axes.flat)[:len(maps)]
+    bar = fig.colorbar(used[0].images[0], ax=used, shrink=0.9 if rows > 1 else 1.0,
+                       aspect=25 * rows)
+    bar.set_label(MAP_LABELS.get(quantity, quantity))
     return fig
 
 
@@ -95,20 +100,53 @@ def plot_lamp_spectra(audit):
     return [plot_spectrum(spectrum) for spectrum in audit.lamp_spectra.values()]
 
 
+def png_bytes(fig) -> bytes | None:
+    """Render a figure to PNG with a single draw (None for a figure without axes).
+
+    ``savefig`` on a figure with a layout engine draws twice (once to lay it out, once to
+    paint); drawing once into the Agg canvas and encoding its pixel buffer gives the same
+    pixels in about a quarter less time. zlib level 1: files about 10 % larger than
+    level 6, encoded about three times faster.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure, drawn at its own dpi with its own face colour.
+    """
+    import io
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from PIL import Image
+
+    if not fig.axes:
+        return None
+    canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+    canvas.draw()
+    pixels = canvas.buffer_rgba()
+    image = Image.frombuffer("RGBA", (pixels.shape[1], pixels.shape[0]), pixels, "raw",
+                             "RGBA", 0, 1)
+    out = io.BytesIO()
+    image.save(out, format="png", compress_level=1, dpi=(fig.dpi, fig.dpi))
+    return out.getvalue()
+
+
 def prepare_figures() -> None:
     """Make inline figures cheaper to produce (in a Jupyter kernel; else nothing).
 
-    PNG with zlib level 1 instead of 6 (files about 10 % larger, encoding about a third
-    faster) and no "tight" bounding box (the figures use constrained layout already, and a
-    tight box costs one more full draw): about 40 % less time per figure, measured on the
-    report's figures.
+    Figures are shown as PNG made by :func:`png_bytes` (one draw instead of two, fast
+    zlib level): about a third less time per figure than the inline backend's default
+    ("tight" bounding box, which costs one more full draw), measured on the report's figures.
     """
     try:
         from IPython import get_ipython
+        from matplotlib.figure import Figure
         from matplotlib_inline.config import InlineBackend
     except ImportError:
         return
-    if get_ipython() is None:
+    shell = get_ipython()
+    if shell is None:
         return
     InlineBackend.instance().print_figure_kwargs = {"bbox_inches": None,
                                                     "pil_kwargs": {"compress_level": 1}}
+    # registered after the inline backend's own formatter (set up when pyplot is imported)
+    shell.display_formatter.formatters["image/png"].for_type(Figure, png_bytes)

@@ -69,6 +69,7 @@ def plot_surface_map(
     vmax: float | None = None,
     show_emitters: bool = True,
     title: str | None = None,
+    colorbar: bool = True,
 ):
     """Draw one surface map with target-range contours and the lamps above it.
 
@@ -90,6 +91,8 @@ def plot_surface_map(
         Mark each LED emitter position.
     title : str, optional
         Panel title; default the surface name and height.
+    colorbar : bool, optional
+        Draw this panel's colour bar (off when panels share one bar).
 
     Returns
     -------
@@ -116,8 +119,9 @@ def plot_surface_map(
         aspect="equal",
         interpolation="nearest",
     )
-    bar = fig.colorbar(image, ax=ax, shrink=0.9)
-    bar.set_label(MAP_LABELS.get(quantity, quantity))
+    if colorbar:
+        bar = fig.colorbar(image, ax=ax, shrink=0.9)
+        bar.set_label(MAP_LABELS.get(quantity, quantity))
     if uvi_range is not None and "uvi" in m.values and min(values.shape) > 1:
         _range_contours(ax, m, uvi_range)
     if enclosure is not None:
