@@ -48,6 +48,8 @@ _CHECK_KEYS = ("name", "value", "unit", "target_low", "target_high", "state", "r
 #: cached weights are loaded before the first workbook.
 _WARM_UP = """\
 def _audit_warm_up():
+    import warnings
+
     import matplotlib.pyplot as plt
     import numpy as np
     import pandas, pvlib, scipy.optimize  # noqa: F401
@@ -56,14 +58,22 @@ def _audit_warm_up():
     from audit_lib.report import audit_figures, enclosure  # noqa: F401
     from audit_lib.spectra import Spectrum
 
-    wavelength = np.arange(250.0, 801.0)
-    peak = 1e-3 * np.exp(-0.5 * ((wavelength - 305.0) / 8.0) ** 2) + 1e-6
-    spectrum_metrics(Spectrum(wavelength, peak, name="warm-up"))
-    fig, ax = plt.subplots(figsize=(3, 2), layout="constrained")
-    fig.colorbar(ax.imshow(np.eye(3)), ax=ax).set_label("UV Index [-]")
-    ax.set_title("warm-up")
-    fig.canvas.draw()
-    plt.close(fig)
+    with warnings.catch_warnings():  # silent here; the workbooks still show their warnings
+        warnings.simplefilter("ignore")
+        wavelength = np.arange(250.0, 801.0)
+        peak = 1e-3 * np.exp(-0.5 * ((wavelength - 305.0) / 8.0) ** 2) + 1e-6
+        spectrum_metrics(Spectrum(wavelength, peak, name="warm-up"))
+        fig, ax = plt.subplots(figsize=(3, 2), layout="constrained")
+        fig.colorbar(ax.imshow(np.eye(3)), ax=ax).set_label("UV Index [-]")
+        ax.set_title("warm-up")
+        fig.canvas.draw()
+        plt.close(fig)
+        try:  # the site's files and unit tables; a broken site is reported by the main process
+            from audit_lib.site import load_site
+
+            load_site(SITE_DIR)
+        except Exception:  # noqa: BLE001
+            pass
 
 
 _audit_warm_up()
@@ -315,13 +325,14 @@ def results_csv(doc: dict) -> str:
     return buf.getvalue()
 
 
-def _start_pool(jobs: int) -> ProcessPoolExecutor:
+def _start_pool(jobs: int, site_dir: Path) -> ProcessPoolExecutor:
     """Start ``jobs`` workers now; each starts and warms its kernel in the background."""
     import multiprocessing
 
     method = "fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn"
     pool = ProcessPoolExecutor(max_workers=jobs, mp_context=multiprocessing.get_context(method),
-                               initializer=_init_worker, initargs=(_WARM_UP,))
+                               initializer=_init_worker,
+                               initargs=(_WARM_UP.replace("SITE_DIR", repr(str(site_dir))),))
     for _ in range(jobs):  # the first submission starts the processes
         pool.submit(_ready)
     return pool
@@ -407,7 +418,7 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     # the site, so it is bounded by ``only`` when given
     limit = len(set(only)) + bool(overview) if only else None
     jobs = max(1, min(jobs or os.cpu_count() or 1, limit or 1_000_000))
-    pool = _start_pool(jobs)  # workers start their kernels while the site is validated
+    pool = _start_pool(jobs, site_dir)  # workers start their kernels while the site is validated
     try:
         site = load_site(site_dir)
         ids = _select(site, only)
@@ -419,6 +430,11 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
         tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook,
                        overview_workbook if overview and overview_workbook.exists() else None)
+    except BaseException:
+        # bad input: report it now; the workers finish starting, then stop with their kernels
+        pool.shutdown(wait=False, cancel_futures=True)
+        raise
+    try:
         by_id = {d["id"]: d for d in _execute(pool, _order(tasks, site), progress)}
     finally:
         pool.shutdown(wait=True, cancel_futures=True)

@@ -143,6 +143,22 @@ def test_invalid_site_runs_nothing(tmp_path):
     assert not (tmp_path / "out").exists() or not any((tmp_path / "out").rglob("*.html"))
 
 
+def test_longest_workbooks_are_queued_first():
+    """Longest-processing-time-first list scheduling (Graham 1969, SIAM J. Appl. Math. 17,
+    416-429): the overview first, then enclosures by their number of lamps and surfaces
+    (what sets the number of figures), ties kept in site order."""
+    from types import SimpleNamespace
+
+    from audit_lib.batch import _order
+
+    sizes = {"small": (1, 1), "big": (3, 2), "mid": (2, 1), "mid2": (1, 2)}
+    site = SimpleNamespace(enclosure=lambda i: SimpleNamespace(
+        lamps=[0] * sizes[i][0], surfaces=[0] * sizes[i][1]))
+    tasks = [{"id": i} for i in sizes] + [{"id": "site-overview", "overview": True}]
+    assert [t["id"] for t in _order(tasks, site)] == ["site-overview", "big", "mid", "mid2",
+                                                      "small"]
+
+
 # --- end to end ------------------------------------------------------------------------------
 
 

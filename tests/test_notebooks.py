@@ -143,3 +143,32 @@ def test_exported_mplbackend_does_not_remove_figures(tmp_path, monkeypatch):
     finally:
         kernel.shutdown()
     assert any("image/png" in o.get("data", {}) for o in done.cells[-1].outputs)
+
+
+@pytest.mark.slow
+def test_warm_kernel_reset_keeps_modules_drops_names_figures_and_outputs(tmp_path):
+    """IPython keeps cell results in ``Out`` and ``_``; matplotlib's pyplot keeps open figures
+    (``plt.get_fignums``). After a workbook the warm kernel drops them and the workbook's
+    names, and keeps imported modules (``sys.modules``)."""
+    nb = new_notebook(cells=[
+        new_code_cell("step = 0", metadata={"tags": ["parameters"]}),
+        new_code_cell("import sys\nimport matplotlib.pyplot as plt\n"
+                      "if step == 1:\n    import colorsys\n    fig = plt.figure()\n"
+                      "    big = list(range(10))"),
+        new_code_cell("big if step == 1 else None"),
+        new_code_cell("if step == 2:\n"
+                      "    assert 'big' not in globals() and 'fig' not in globals()\n"
+                      "    assert plt.get_fignums() == []\n"
+                      "    assert dict(Out) == {} and _ == ''\n"
+                      "    assert 'colorsys' in sys.modules"),
+    ], metadata={"kernelspec": {"name": "audit-lib", "display_name": "x", "language": "python"}})
+    src = tmp_path / "probe.ipynb"
+    nbformat.write(nb, src)
+    kernel = WarmKernel(cwd=tmp_path)
+    try:
+        kernel.execute(src, tmp_path / "one.ipynb", {"step": 1})
+        done = kernel.execute(src, tmp_path / "two.ipynb", {"step": 2})
+    finally:
+        kernel.shutdown()
+    assert done.metadata.papermill.exception is False
+    assert (tmp_path / "two.ipynb").is_file()

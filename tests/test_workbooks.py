@@ -64,3 +64,34 @@ def test_workbook_runs_as_it_is(path):
         capture_output=True, text=True, cwd=path.parent, env=env, timeout=900)
     assert run.returncode == 0, run.stdout[-3000:] + run.stderr[-2000:]
     assert " passed" in run.stdout
+
+
+def test_one_draw_png_matches_savefig():
+    """matplotlib's own ``savefig`` (Agg backend) is the reference: the one-draw PNG of a
+    constrained-layout figure with a colour bar has the same size and the same pixels
+    (decoded with Pillow)."""
+    import io
+
+    import matplotlib
+    import numpy as np
+    from PIL import Image, ImageChops
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from audit_lib.report.audit_figures import png_bytes
+
+    fig, ax = plt.subplots(figsize=(4, 3), dpi=96, layout="constrained")
+    image = ax.imshow(np.arange(12.0).reshape(3, 4), cmap="cividis")
+    fig.colorbar(image, ax=ax).set_label("UV Index [-]")
+    ax.set_title("surface (z = 0.45 m)")
+    ours = Image.open(io.BytesIO(png_bytes(fig))).convert("RGBA")
+    reference = io.BytesIO()
+    fig.savefig(reference, format="png")
+    plt.close(fig)
+    theirs = Image.open(reference).convert("RGBA")
+    assert ours.size == theirs.size == (384, 288)
+    assert ImageChops.difference(ours, theirs).getbbox() is None
+    empty = plt.figure()
+    assert png_bytes(empty) is None  # nothing to show, as IPython's own formatter
+    plt.close(empty)
