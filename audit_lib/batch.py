@@ -44,8 +44,9 @@ CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "value", "unit
                "target_low", "target_high", "state", "reason", "error")
 _CHECK_KEYS = ("name", "value", "unit", "target_low", "target_high", "state", "reason")
 #: Code a worker's kernel runs once, while the main process validates the site: the heavy
-#: imports, and one small figure and one spectrum's metrics so fonts, colour tables and
-#: cached weights are loaded before the first workbook.
+#: imports, one small figure, one spectrum's metrics and the site itself, so fonts, colour
+#: tables, unit tables and cached weights are loaded before the first workbook; then the
+#: loaded objects are frozen out of garbage collection (``gc.freeze``).
 _WARM_UP = """\
 def _audit_warm_up():
     import warnings
@@ -78,6 +79,12 @@ def _audit_warm_up():
 
 _audit_warm_up()
 del _audit_warm_up
+# what is loaded now stays for the kernel's life: keep it out of the collector's full passes
+# (matplotlib leaves many reference cycles; a full pass over every module's objects is slow)
+import gc as _audit_gc
+_audit_gc.collect()
+_audit_gc.freeze()
+del _audit_gc
 """
 _WORKER: dict = {}
 
