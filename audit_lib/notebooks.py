@@ -185,7 +185,7 @@ def _register_engine() -> None:
 
         @classmethod
         def execute_managed_notebook(
-            cls, nb_man, kernel_name, km=None, log_output=False, start_timeout=60,
+            cls, nb_man, kernel_name, km=None, kc=None, log_output=False, start_timeout=60,
             execution_timeout=None, **kwargs,
         ):
             from nbclient.util import run_sync
@@ -194,6 +194,9 @@ def _register_engine() -> None:
                 nb_man, km=km, kernel_name=kernel_name, timeout=execution_timeout,
                 startup_timeout=start_timeout, log_output=log_output,
             )
+            # a connected client is reused: a new one waits 0.2 s for the kernel's output
+            # channel to fall quiet (jupyter_client's wait_for_ready) on every workbook
+            client.kc = kc
             # papermill saves the whole notebook before and after every cell (about 70
             # validated writes of a growing notebook); save once, when it completes
             output_path, nb_man.output_path = nb_man.output_path, None
@@ -203,9 +206,11 @@ def _register_engine() -> None:
                 nb_man.output_path = output_path
                 if client.kc is not None:
                     try:
-                        run_sync(client.kc.execute_interactive)(_RESET_CODE, timeout=30)
+                        if km is None or run_sync(km.is_alive)():
+                            run_sync(client.kc.execute_interactive)(_RESET_CODE, timeout=30)
                     finally:
-                        client.kc.stop_channels()
+                        if client.kc is not kc:  # a client made for this workbook only
+                            client.kc.stop_channels()
                         client.kc = None
 
     papermill_engines.register(_ENGINE_NAME, WarmKernelEngine)
@@ -231,7 +236,7 @@ class WarmKernel:
         self.cwd = str(cwd or WORKBOOKS_DIR)
         self.warm_up = warm_up
         self.km = None
-        self._warm = False
+        self.kc = None
 
     def launch(self) -> None:
         """Start the kernel process without waiting for it (see :meth:`ensure_started`).
@@ -249,23 +254,28 @@ class WarmKernel:
         # an exported MPLBACKEND (e.g. Agg) would stop the inline backend: figures vanish
         env = {k: v for k, v in os.environ.items() if k != "MPLBACKEND"}
         run_sync(self.km.start_kernel)(cwd=self.cwd, env=env)
-        self._warm = False
 
     def ensure_started(self) -> None:
-        """Start the kernel if it is not running (first use, or after it died), and warm it."""
+        """Start the kernel if it is not running (first use, or after it died), and warm it.
+
+        One connected client is kept for the kernel's life and used by every workbook.
+        """
         from nbclient.util import run_sync
 
         if self.km is None or not run_sync(self.km.is_alive)():
             self.launch()
-        if self.warm_up and not getattr(self, "_warm", False):
+        if self.kc is None:
             client = self.km.client()
             client.start_channels()
             try:
                 run_sync(client.wait_for_ready)(timeout=120)
-                run_sync(client.execute_interactive)(self.warm_up, timeout=300)
-            finally:
+                client.allow_stdin = False
+                if self.warm_up:
+                    run_sync(client.execute_interactive)(self.warm_up, timeout=300)
+            except BaseException:
                 client.stop_channels()
-        self._warm = True
+                raise
+            self.kc = client
 
     def execute(self, input_path, output_path, parameters: dict, timeout: float = 900):
         """Execute one workbook with papermill; return the executed notebook.
@@ -289,7 +299,7 @@ class WarmKernel:
         self.ensure_started()
         return papermill.execute_notebook(
             str(input_path), str(output_path), parameters=parameters,
-            engine_name=_ENGINE_NAME, kernel_name=self.kernel_name, km=self.km,
+            engine_name=_ENGINE_NAME, kernel_name=self.kernel_name, km=self.km, kc=self.kc,
             progress_bar=False, execution_timeout=timeout,
             request_save_on_cell_execute=False,
         )
@@ -298,6 +308,9 @@ class WarmKernel:
         """Stop the kernel (safe to call twice)."""
         from nbclient.util import run_sync
 
+        if self.kc is not None:
+            self.kc.stop_channels()
+            self.kc = None
         if self.km is None:
             return
         try:
