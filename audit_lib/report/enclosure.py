@@ -193,7 +193,8 @@ def dose_table(audit) -> pd.DataFrame:
                            "hours_in_range": float(dose.hours_in_range),
                            "peak_uvi": float(dose.peak_uvi),
                            "mean_uvi_exposed": float(dose.mean_uvi_exposed)}
-    rows["clear-sky sun at the site"] = {"sed": audit.natural.get("daily_sed", math.nan),
+    place = audit.natural.get("place", "the site")
+    rows[f"clear-sky sun at {place}"] = {"sed": audit.natural.get("daily_sed", math.nan),
                                          "peak_uvi": audit.natural.get("peak_uvi", math.nan)}
     return pd.DataFrame(rows).T.round(2)
 

@@ -73,8 +73,9 @@ def replacement_table(overview) -> pd.DataFrame:
     t["replace_by"] = pd.to_datetime(t["replace_by"]).dt.date
     order = {"below target": 0, "due soon": 1}
     t["_rank"] = t["state"].map(lambda s: order.get(s, 2))
-    return t.sort_values(["_rank", "replace_by"], na_position="last").drop(columns="_rank") \
-        .round(2).set_index(["enclosure", "lamp"])
+    t = t.sort_values(["_rank", "replace_by"], na_position="last").drop(columns="_rank")
+    t["replace_by"] = t["replace_by"].map(lambda d: "no forecast" if pd.isna(d) else d)
+    return t.round(2).set_index(["enclosure", "lamp"])
 
 
 def overview_data(overview) -> dict:
