@@ -319,6 +319,14 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     basking_max = float(peak_map.values["uvi"].max())
     refuge_share = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
 
+    # the sun where the species lives (local solar time), else at the site (local clock time)
+    native = next((s.native_latitude_deg for s in sorted(species, key=lambda s: -s.zone)
+                   if s.native_latitude_deg is not None), None)
+    if native is None:
+        sun_lat, sun_lon, sun_offset, sun_place = (
+            info.latitude_deg, info.longitude_deg, _utc_offset_h(info.time_zone, day), "the site")
+    else:
+        sun_lat, sun_lon, sun_offset, sun_place = native, 0.0, 0.0, "the species' native range"
     schedules = {p.id: lamp_schedule(site, p) for p in record.lamps}
     profiles = daily_profiles(schedules, day) if schedules else None
     at_peak = steps.per_lamp_values(scene, peak_point[None, :], failed)
@@ -332,7 +340,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
         light_hours = lit_hours_of_table(profiles)
         monthly = dose_monthly_table(uvi_peak, schedules, day.year,
                                      vitamin_d_w_m2_full=vitd_peak, uvi_range=max_range,
-                                     reference_latitude_deg=info.latitude_deg)
+                                     reference_latitude_deg=sun_lat)
         if record.time_budget:
             places = steps.budget_places(record, scene)
             unknown = [k for k in record.time_budget if k not in places]
@@ -354,14 +362,6 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                                                   uvi_range=mean_range)
                 mean_uvi = float(animal.mean_uvi_exposed)
 
-    # the sun where the species lives (local solar time), else at the site (local clock time)
-    native = next((s.native_latitude_deg for s in sorted(species, key=lambda s: -s.zone)
-                   if s.native_latitude_deg is not None), None)
-    if native is None:
-        sun_lat, sun_lon, sun_offset, sun_place = (
-            info.latitude_deg, info.longitude_deg, _utc_offset_h(info.time_zone, day), "the site")
-    else:
-        sun_lat, sun_lon, sun_offset, sun_place = native, 0.0, 0.0, "the species' native range"
     sun = clear_sky_uvi_day(sun_lat, sun_lon, day, utc_offset_h=sun_offset, step_s=600.0)
     daily = pd.DataFrame({"time_h": sun["time_h"].to_numpy(), "sun_uvi": sun["uvi"].to_numpy()})
     if profiles is not None:
