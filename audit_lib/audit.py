@@ -319,14 +319,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     basking_max = float(peak_map.values["uvi"].max())
     refuge_share = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
 
-    # the sun where the species lives (local solar time), else at the site (local clock time)
-    native = next((s.native_latitude_deg for s in sorted(species, key=lambda s: -s.zone)
-                   if s.native_latitude_deg is not None), None)
-    if native is None:
-        sun_lat, sun_lon, sun_offset, sun_place = (
-            info.latitude_deg, info.longitude_deg, _utc_offset_h(info.time_zone, day), "the site")
-    else:
-        sun_lat, sun_lon, sun_offset, sun_place = native, 0.0, 0.0, "the species' native range"
+    sun_lat, sun_lon, sun_offset, sun_place = steps.sun_place(site, species, day)
     schedules = {p.id: lamp_schedule(site, p) for p in record.lamps}
     profiles = daily_profiles(schedules, day) if schedules else None
     at_peak = steps.per_lamp_values(scene, peak_point[None, :], failed)
@@ -431,17 +424,6 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
         lamps=lamps, decays=decays, spectra=spectra,
         lamp_spectra=lamp_spectra, notes=notes,
         provenance=_provenance(site, enclosure_id, spacing_m, day))
-
-
-def _utc_offset_h(time_zone: str, day: dt.date) -> float:
-    from zoneinfo import ZoneInfo
-
-    try:
-        noon = dt.datetime.combine(day, dt.time(12), tzinfo=ZoneInfo(time_zone))
-    except (KeyError, ValueError):
-        raise InputError(f"unknown time zone {time_zone!r}", field="site.time_zone",
-                         hint="use an IANA name such as Europe/London") from None
-    return noon.utcoffset().total_seconds() / 3600.0
 
 
 def _provenance(site, enclosure_id, spacing_m, day) -> dict:

@@ -7,6 +7,7 @@ figure feeds which check, how the model is calibrated to readings) are described
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 import warnings
 from dataclasses import replace
@@ -14,7 +15,7 @@ from dataclasses import replace
 import numpy as np
 import pandas as pd
 
-from audit_lib.errors import AuditWarning
+from audit_lib.errors import AuditWarning, InputError
 
 #: Grid of the representative points of a surface in a time budget (ny, nx).
 PLACE_SHAPE = (6, 6)
@@ -233,3 +234,29 @@ def failure_table(scene, surface, failed, uvi_range, calibration, probability, s
                               seed=seed, shape=(12, 12))
     # shares are the same for the calibrated range; label the study with the zone's range
     return pd.DataFrame(rows), replace(mc, uvi_range=tuple(uvi_range))
+
+
+def sun_place(site, species, day):
+    """Where the sun's clear-sky reference day is drawn.
+
+    The species' native latitude at local solar time (longitude 0, UTC) when the species
+    table gives one (the highest zone's species first), else the site at its local clock time.
+
+    Returns
+    -------
+    (latitude_deg, longitude_deg, utc_offset_h, place) : (float, float, float, str)
+    """
+    from zoneinfo import ZoneInfo
+
+    native = next((s.native_latitude_deg for s in sorted(species, key=lambda s: -s.zone)
+                   if s.native_latitude_deg is not None), None)
+    if native is not None:
+        return native, 0.0, 0.0, "the species' native range"
+    info = site.records.site
+    try:
+        noon = dt.datetime.combine(day, dt.time(12), tzinfo=ZoneInfo(info.time_zone))
+    except (KeyError, ValueError):
+        raise InputError(f"unknown time zone {info.time_zone!r}", field="site.time_zone",
+                         hint="use an IANA name such as Europe/London") from None
+    return (info.latitude_deg, info.longitude_deg,
+            noon.utcoffset().total_seconds() / 3600.0, "the site")

@@ -24,7 +24,13 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from audit_lib.audit_steps import budget_places, failed_of, only_lamp, per_lamp_values
+from audit_lib.audit_steps import (
+    budget_places,
+    failed_of,
+    only_lamp,
+    per_lamp_values,
+    sun_place,
+)
 from audit_lib.audit_steps import height_for_uvi as height_search
 from audit_lib.errors import AuditWarning, InputError
 from audit_lib.scenarios import (
@@ -128,12 +134,6 @@ class PlanResult:
 
         return verdict_frame(self.verdict) if self.verdict is not None else None
 
-
-def _utc_offset_h(time_zone: str, day: dt.date) -> float:
-    from zoneinfo import ZoneInfo
-
-    noon = dt.datetime.combine(day, dt.time(12), tzinfo=ZoneInfo(time_zone))
-    return noon.utcoffset().total_seconds() / 3600.0
 
 
 class WhatIfPlanner:
@@ -386,7 +386,7 @@ class WhatIfPlanner:
             config=c, maps=maps, basking_surface=peak_surface,
             basking_max_uvi=float(pm.values["uvi"].max()), peak_point_m=peak,
             statistics=stats, refuge_share=refuge, mean_uvi=mean_uvi, light_hours=hours,
-            daily=daily, dose=dose, sun=self._sun(), zone=zone, verdict=verdict,
+            daily=daily, dose=dose, sun=self._sun(species), zone=zone, verdict=verdict,
             keeper_limit_s=keeper, short_uvb_fraction=short,
             timings_ms={"maps": 1e3 * (t1 - t0), "statistics": 1e3 * (t2 - t1),
                         "day": 1e3 * (t3 - t2), "verdict": 1e3 * (t4 - t3)},
@@ -482,13 +482,12 @@ class WhatIfPlanner:
                 shares.append(value)
         return max(shares) if shares else None
 
-    def _sun(self):
+    def _sun(self, species=None):
         from audit_lib.sunlight import clear_sky_uvi_day
 
-        info = self.site.records.site
-        return self._cached("sun", self.day, lambda: clear_sky_uvi_day(
-            info.latitude_deg, info.longitude_deg, self.day,
-            utc_offset_h=_utc_offset_h(info.time_zone, self.day), step_s=600.0))
+        lat, lon, offset, _ = sun_place(self.site, [species] if species else [], self.day)
+        return self._cached("sun", (self.day, lat), lambda: clear_sky_uvi_day(
+            lat, lon, self.day, utc_offset_h=offset, step_s=600.0))
 
     def _verdict(self, c, scene, species, zone, failed, peak, share, **figures):
         from audit_lib.metrics import sun_reference
