@@ -60,6 +60,22 @@ class HeightAnswer:
     message: str
 
 
+def _question_range(statistic: str, uvi_range) -> tuple[float, float]:
+    """Validate the statistic and the target range of an inverse question; return (lo, hi)."""
+    if statistic not in HEIGHT_STATISTICS:
+        raise InputError(
+            f"unknown statistic {statistic!r}",
+            field="statistic",
+            hint="use one of " + ", ".join(HEIGHT_STATISTICS),
+        )
+    lo, hi = (float(v) for v in uvi_range)
+    if not 0 <= lo <= hi:
+        raise InputError(
+            f"UVI range ({lo:g}, {hi:g}) must satisfy 0 <= lo <= hi", field="uvi_range"
+        )
+    return lo, hi
+
+
 def height_for_target(
     enclosure: Enclosure,
     lamp: str,
@@ -93,17 +109,7 @@ def height_for_target(
     -------
     HeightAnswer
     """
-    if statistic not in HEIGHT_STATISTICS:
-        raise InputError(
-            f"unknown statistic {statistic!r}",
-            field="statistic",
-            hint="use one of " + ", ".join(HEIGHT_STATISTICS),
-        )
-    lo, hi = (float(v) for v in uvi_range)
-    if not 0 <= lo <= hi:
-        raise InputError(
-            f"UVI range ({lo:g}, {hi:g}) must satisfy 0 <= lo <= hi", field="uvi_range"
-        )
+    lo, hi = _question_range(statistic, uvi_range)
     index = [i for i, p in enumerate(enclosure.lamps) if p.id == lamp]
     if not index:
         raise InputError(
@@ -254,13 +260,7 @@ def emitter_count_for_target(
     """
     from audit_lib.lamps import EmitterPosition, LedArray
 
-    if statistic not in HEIGHT_STATISTICS:
-        raise InputError(
-            f"unknown statistic {statistic!r}",
-            field="statistic",
-            hint="use one of " + ", ".join(HEIGHT_STATISTICS),
-        )
-    lo, hi = (float(v) for v in uvi_range)
+    lo, hi = _question_range(statistic, uvi_range)
     index = [i for i, p in enumerate(enclosure.lamps) if p.id == lamp]
     if not index or not isinstance(enclosure.lamps[index[0]].lamp, LedArray):
         raise InputError(
