@@ -83,7 +83,7 @@ def main() -> None:
     args = parser.parse_args()
 
     sys.path.insert(0, str(ROOT))
-    from audit_lib.site import load_site
+    from audit_lib.site.folder import load_site
 
     site_dir = Path(args.site).resolve()
     ids = [e.id for e in load_site(site_dir).records.enclosures]

@@ -9,8 +9,8 @@ import tracemalloc
 
 import numpy as np
 
-from audit_lib.dose import integrate_daily_dose, monthly_table
-from audit_lib.photoperiod import NaturalDaySchedule, OnOffSchedule, daily_profile
+from audit_lib.day.dose import integrate_daily_dose, monthly_table
+from audit_lib.day.photoperiod import NaturalDaySchedule, OnOffSchedule, daily_profile
 
 
 def best_of(func, repeat=3):

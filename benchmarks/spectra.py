@@ -11,7 +11,7 @@ import tracemalloc
 
 import numpy as np
 
-from audit_lib.metrics import QUANTITY_DEFINITIONS, batch_metrics, peak_shape
+from audit_lib.light.metrics import QUANTITY_DEFINITIONS, batch_metrics, peak_shape
 
 N_SPECTRA, N_POINTS, LOOP_SAMPLE = 10_000, 551, 500
 

@@ -28,8 +28,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 def demo_site(root: Path):
     """An invented site with one 64-emitter LED array (demo data, not a product)."""
-    from audit_lib.site import Site
-    from audit_lib.site_schema import SiteFile
+    from audit_lib.site.folder import Site
+    from audit_lib.site.schema import SiteFile
 
     data = {
         "format_version": 1,
@@ -74,8 +74,8 @@ def changes(r: int):
 
 
 def main(rounds: int = 3) -> None:
-    from audit_lib.planner import WhatIfPlanner
-    from audit_lib.widgets import WhatIfPanel
+    from audit_lib.pipeline.planner import WhatIfPlanner
+    from audit_lib.run.widgets import WhatIfPanel
 
     with tempfile.TemporaryDirectory() as tmp:
         planner = WhatIfPlanner(demo_site(Path(tmp)), "bench", shape=(200, 200))

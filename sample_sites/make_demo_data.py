@@ -2,7 +2,7 @@
 
 DEMO DATA. The sites, lamps and readings are invented. This script makes the readings
 consistent with the site files, so that the audit's verdicts mean something: each reading
-is the scene model's value (``audit_lib.assemble`` + ``audit_lib.scene``) at the reading's
+is the scene model's value (``audit_lib.pipeline.assemble`` + ``audit_lib.scene.maps``) at the reading's
 place, times the lamp's remaining output on the audit day, times meter noise, rounded to
 the meter's resolution. The planted problems come from the site files themselves (a lamp
 never replaced, a failed emitter, a lamp too close, an enclosure without a refuge).
@@ -29,11 +29,11 @@ try:  # Python >= 3.11
 except ModuleNotFoundError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 
-from audit_lib.assemble import bands_spectrum, build_scene, failed_labels
-from audit_lib.metrics import weighted_quantities
-from audit_lib.scene import evaluate_points
-from audit_lib.site import Site
-from audit_lib.site_schema import Band, SiteFile
+from audit_lib.pipeline.assemble import bands_spectrum, build_scene, failed_labels
+from audit_lib.light.metrics import weighted_quantities
+from audit_lib.scene.maps import evaluate_points
+from audit_lib.site.folder import Site
+from audit_lib.site.schema import Band, SiteFile
 
 HERE = Path(__file__).resolve().parent
 PARK = HERE / "kestrel-moor-wildlife-park"

@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from audit_lib import action_spectra as act
+from audit_lib.light import action_spectra as act
 
 REFERENCE = Path(__file__).resolve().parents[2] / "shared" / "reference-data"
 

@@ -17,11 +17,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from audit_lib.assemble import bands_spectrum, build_scene, failed_labels
-from audit_lib.audit import audit_enclosure, choose_audit_date, open_enclosure
+from audit_lib.pipeline.assemble import bands_spectrum, build_scene, failed_labels
+from audit_lib.pipeline.audit import audit_enclosure, choose_audit_date, open_enclosure
 from audit_lib.errors import InputError
-from audit_lib.scene import compute_maps, evaluate_points
-from audit_lib.site import load_site, new_site
+from audit_lib.scene.maps import compute_maps, evaluate_points
+from audit_lib.site.folder import load_site, new_site
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "sample_sites" / "kestrel-moor-wildlife-park"
@@ -41,7 +41,7 @@ def dragon(small):
 def test_bands_spectrum_has_unit_area_and_its_peak():
     """numpy trapezoid rule: the modelled spectral shape integrates to 1; one band peaks at
     its stated wavelength."""
-    from audit_lib.site_schema import Band
+    from audit_lib.site.schema import Band
 
     spectrum = bands_spectrum([Band(peak_nm=313, fwhm_nm=30, share=1.0)], "one band")
     assert np.trapezoid(spectrum.irradiance_w_m2_nm, spectrum.wavelength_nm) == \
@@ -157,7 +157,7 @@ def test_readings_corrected_for_meter_mismatch(tmp_path):
     corrected reading (raw x F*) and keeps the raw one beside it."""
     import shutil
 
-    from audit_lib.meter_corrections import site_meter_corrections
+    from audit_lib.pipeline.meter_corrections import site_meter_corrections
 
     site_dir = tmp_path / "site"
     shutil.copytree(SMALL, site_dir)
@@ -192,8 +192,8 @@ def test_no_readings_on_the_audit_day_leaves_the_model_as_rated(small):
 
 def test_failure_labels_of_a_whole_lamp_and_of_emitters():
     """A failure label is the lamp id (a tube or point lamp out) or '<lamp>/<emitter>' (one
-    LED out); both belong to that lamp and to no other (label convention of audit_lib.failures)."""
-    from audit_lib.audit_steps import failed_of
+    LED out); both belong to that lamp and to no other (label convention of audit_lib.scene.failures)."""
+    from audit_lib.pipeline.steps import failed_of
 
     failed = ("tube", "bar/3", "bar-2/1")
     assert failed_of(failed, "tube") == ("tube",)
@@ -206,7 +206,7 @@ def test_calibration_ignores_readings_at_meter_resolution():
     practice). Basking 6.0 measured vs 5.0 modelled gives 1.2 (ratio definition)."""
     import pandas as pd
 
-    from audit_lib.audit_steps import calibration_factor
+    from audit_lib.pipeline.steps import calibration_factor
 
     points = pd.DataFrame({"uvi": [5.0, 0.04], "measured_uvi": [6.0, 0.0]})
     assert calibration_factor(points) == pytest.approx(1.2)
@@ -217,7 +217,7 @@ def test_calibration_ignores_readings_at_meter_resolution():
 def test_sun_drawn_in_the_native_range_when_known():
     """The species table's native latitude (demo data) moves the clear-sky reference there:
     the sun's daily dose is the one at that latitude (Madronich 2007 via sunlight module)."""
-    from audit_lib.sunlight import clear_sky_daily_dose_sed
+    from audit_lib.light.sun import clear_sky_daily_dose_sed
 
     park = load_site(ROOT / "sample_sites" / "kestrel-moor-wildlife-park")
     result = audit_enclosure(park, "rh-01", with_failures=False)

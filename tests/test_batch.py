@@ -24,7 +24,7 @@ from pathlib import Path
 import nbformat
 import pytest
 
-from audit_lib.batch import (
+from audit_lib.run.batch import (
     CSV_COLUMNS,
     BatchResult,
     EnclosureOutcome,
@@ -34,7 +34,7 @@ from audit_lib.batch import (
     safe_stem,
 )
 from audit_lib.errors import InputError
-from audit_lib.notebooks import write_atomic
+from audit_lib.run.notebooks import write_atomic
 from audit_lib.report.index_page import render_index
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -149,7 +149,7 @@ def test_longest_workbooks_are_queued_first():
     (what sets the number of figures), ties kept in site order."""
     from types import SimpleNamespace
 
-    from audit_lib.batch import _order
+    from audit_lib.run.batch import _order
 
     sizes = {"small": (1, 1), "big": (3, 2), "mid": (2, 1), "mid2": (1, 2)}
     site = SimpleNamespace(enclosure=lambda i: SimpleNamespace(
@@ -176,7 +176,7 @@ def _load(out: Path) -> dict:
 def test_demo_run_writes_every_report(demo_run):
     """Every enclosure has a report, an executed notebook and a results entry (papermill +
     nbconvert: executed notebook beside a self-contained HTML report)."""
-    from audit_lib.site import load_site
+    from audit_lib.site.folder import load_site
 
     result, out = demo_run
     site = load_site(DEMO)
@@ -206,8 +206,8 @@ def test_demo_run_writes_every_report(demo_run):
 @pytest.mark.slow
 def test_demo_results_match_the_library(demo_run):
     """results.json holds the library's own figures (audit_enclosure run in this process)."""
-    from audit_lib.audit import audit_enclosure
-    from audit_lib.site import load_site
+    from audit_lib.pipeline.audit import audit_enclosure
+    from audit_lib.site.folder import load_site
 
     _, out = demo_run
     site = load_site(DEMO)
@@ -261,7 +261,7 @@ def test_broken_enclosure_is_isolated(tmp_path):
     assert "broken on purpose" in index and "could not be audited" in index
     entry = next(e for e in _load(out)["enclosures"] if e["id"] == "rh-02")
     assert entry["verdict"] is None and "broken on purpose" in entry["error"]
-    cli = subprocess.run([sys.executable, "-m", "audit_lib.cli", "run", str(DEMO), "--out",
+    cli = subprocess.run([sys.executable, "-m", "audit_lib.run.cli", "run", str(DEMO), "--out",
                           str(tmp_path / "cli"), "--only", "rh-02", "--quiet"],
                          capture_output=True, text=True, cwd=tmp_path)
     assert cli.returncode == 0, cli.stderr  # the real workbook audits rh-02 fine
@@ -279,7 +279,7 @@ def test_killed_worker_then_rerun_completes(tmp_path):
     (POSIX rename); a rerun into the same folder completes the set."""
     workbook = _breaking_workbook(tmp_path, "import time\ntime.sleep(4)")
     out = tmp_path / "out"
-    code = ("import sys; from audit_lib.batch import run_batch; "
+    code = ("import sys; from audit_lib.run.batch import run_batch; "
             f"r = run_batch({str(SMALL)!r}, {str(out)!r}, workbook={str(workbook)!r}, "
             "overview=False, progress=False, jobs=2); sys.exit(1 if r.failures else 0)")
     proc = subprocess.Popen([sys.executable, "-c", code], cwd=tmp_path)
@@ -313,7 +313,7 @@ def test_hostile_enclosure_name_is_escaped(tmp_path):
     name_at = text.index("name = ", first)
     end = text.index("\n", name_at)
     toml.write_text(text[:name_at] + f"name = {json.dumps(HOSTILE)}" + text[end:])
-    from audit_lib.site import load_site
+    from audit_lib.site.folder import load_site
 
     enclosure_id = load_site(site).records.enclosures[0].id
     out = tmp_path / "out"
@@ -328,7 +328,7 @@ def test_hostile_enclosure_name_is_escaped(tmp_path):
 def test_cli_run_on_invalid_site_exits_2(tmp_path, capsys):
     """The command's contract (docs/batch-reports.md): bad input, exit status 2, one message
     per problem, nothing written."""
-    from audit_lib.cli import main
+    from audit_lib.run.cli import main
 
     broken = tmp_path / "site"
     shutil.copytree(SMALL, broken)

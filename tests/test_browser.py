@@ -29,7 +29,7 @@ pytestmark = [pytest.mark.slow, pytest.mark.browser,
 
 @pytest.fixture(scope="module")
 def batch_out(tmp_path_factory):
-    from audit_lib.batch import run_batch
+    from audit_lib.run.batch import run_batch
 
     out = tmp_path_factory.mktemp("browser") / "out"
     result = run_batch(SMALL, out, progress=False)

@@ -5,8 +5,8 @@ import json
 import numpy as np
 import pytest
 
-from audit_lib.cli import main
-from audit_lib.emitters import line_shape
+from audit_lib.run.cli import main
+from audit_lib.sources.emitters import line_shape
 
 
 def _write(path, wl, values, unit="W/m^2/nm"):

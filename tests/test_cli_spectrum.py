@@ -7,7 +7,7 @@ import sys
 import numpy as np
 import pytest
 
-from audit_lib.cli import main
+from audit_lib.run.cli import main
 
 from .test_spectra import BAD, DATA
 
@@ -70,7 +70,7 @@ def test_console_script_never_prints_a_traceback(tmp_path):
     """The installed command in a fresh process: exit 2, message, no traceback."""
     path = tmp_path / "garbage.csv"
     path.write_bytes(b"\x00\x01\x02binary")
-    run = subprocess.run([sys.executable, "-m", "audit_lib.cli", "spectrum", str(path)],
+    run = subprocess.run([sys.executable, "-m", "audit_lib.run.cli", "spectrum", str(path)],
                          capture_output=True, text=True, check=False)
     assert run.returncode == 2
     assert "garbage.csv" in run.stderr and "Traceback" not in run.stderr

@@ -1,6 +1,6 @@
 import json
 
-from audit_lib.cli import main
+from audit_lib.run.cli import main
 
 
 def test_sun_command_prints_noaa_day_length(capsys):

@@ -1,4 +1,4 @@
-"""Tests of lamp decay fits and replacement forecasts (audit_lib.decay)."""
+"""Tests of lamp decay fits and replacement forecasts (audit_lib.history.decay)."""
 
 import math
 
@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib import decay
+from audit_lib.history import decay
 from audit_lib.errors import InputError
 
 HOURS = np.array([0.0, 1000, 2000, 3000, 4500, 6000, 8000])
@@ -227,7 +227,7 @@ def test_lamp_check_target_scaled_to_basking_share():
     T = 4.5 give 2.337 and 2.423: both lamps are fine, as the basking reading is."""
     import pandas as pd
 
-    from audit_lib.decay import replacement_schedule
+    from audit_lib.history.decay import replacement_schedule
 
     day = pd.Timestamp("2026-03-10")
     rows = [("rh-08", "", "basking", 5.2), ("rh-08", "a", "", 2.7), ("rh-08", "b", "", 2.8)]

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.targets import WITHIN
+from audit_lib.judge.targets import WITHIN
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
 
@@ -26,8 +26,8 @@ PLANTED = {
 
 
 def _audits(root: Path):
-    from audit_lib.audit import audit_enclosure
-    from audit_lib.site import load_site
+    from audit_lib.pipeline.audit import audit_enclosure
+    from audit_lib.site.folder import load_site
 
     site = load_site(root)
     with warnings.catch_warnings():
@@ -40,7 +40,7 @@ def _audits(root: Path):
 def test_park_verdicts_match_the_planted_problems():
     """Zone ranges: Ferguson et al. 2010, Zoo Biology 29:317-334 (values from memory, as
     shipped in audit_lib/data/ferguson_zones.csv); refuge and keeper limits as in
-    audit_lib.targets (ICNIRP 2004 actinic limit; refuge threshold common practice)."""
+    audit_lib.judge.targets (ICNIRP 2004 actinic limit; refuge threshold common practice)."""
     audits = _audits(SAMPLES / "kestrel-moor-wildlife-park")
     for enclosure_id, audit in audits.items():
         failing = {c.name for c in audit.checks if c.state != WITHIN}

@@ -3,15 +3,15 @@ import datetime as dt
 import numpy as np
 import pytest
 
-from audit_lib.dose import (
+from audit_lib.day.dose import (
     TimeBudget,
     integrate_daily_dose,
     integrate_time_budget,
     monthly_table,
 )
 from audit_lib.errors import InputError
-from audit_lib.photoperiod import NaturalDaySchedule, OnOffSchedule, daily_profile
-from audit_lib.sunlight import clear_sky_daily_dose_sed, day_length_h
+from audit_lib.day.photoperiod import NaturalDaySchedule, OnOffSchedule, daily_profile
+from audit_lib.light.sun import clear_sky_daily_dose_sed, day_length_h
 
 
 def test_one_hour_at_uvi_1_is_0_9_sed():
@@ -133,7 +133,7 @@ def test_monthly_table_follows_natural_day_and_sun():
 def test_uvi_series_superposes_lamps():
     """Superposition of lamp contributions (weighted irradiance is linear in output): at
     12:00 both lamps are on, at 09:00 only the first."""
-    from audit_lib.dose import uvi_series
+    from audit_lib.day.dose import uvi_series
 
     a = daily_profile(OnOffSchedule(on="08:00", off="20:00"))
     b = daily_profile(OnOffSchedule(on="11:00", off="15:00"))
@@ -148,7 +148,7 @@ def test_map_statistics_match_a_plain_numpy_loop():
     """Reference: the plain time-by-time numpy evaluation of sum_l value_l x fraction_l(t)
     (rectangle rule over the 1-minute step means) gives the same dose, peak, exposed and
     in-range hours as the library's grouped evaluation."""
-    from audit_lib.photoperiod import LevelSchedule
+    from audit_lib.day.photoperiod import LevelSchedule
 
     rng = np.random.default_rng(3)
     maps = {"a": rng.random((6, 5)) * 3, "b": rng.random((6, 5)) * 2}

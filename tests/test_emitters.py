@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 
-from audit_lib.emitters import (
+from audit_lib.sources.emitters import (
     LINE_SHAPES,
     AngularPattern,
     EmitterType,
@@ -26,7 +26,7 @@ from audit_lib.emitters import (
     weigh_emitter,
 )
 from audit_lib.errors import InputError
-from audit_lib.spectra import Spectrum
+from audit_lib.light.spectra import Spectrum
 
 
 def _half_max_points(peak, fwhm, asym, shape):

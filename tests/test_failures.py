@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 from scipy import constants, stats
 
-from audit_lib.emitters import EmitterType
+from audit_lib.sources.emitters import EmitterType
 from audit_lib.errors import InputError
-from audit_lib.failures import (
+from audit_lib.scene.failures import (
     arrhenius_factor,
     coverage,
     emitter_contributions,
@@ -20,8 +20,8 @@ from audit_lib.failures import (
     monte_carlo_failures,
     worst_units,
 )
-from audit_lib.lamps import LedArray, line_of_emitters
-from audit_lib.scene import Enclosure, PlacedLamp, Surface, compute_maps
+from audit_lib.sources.lamps import LedArray, line_of_emitters
+from audit_lib.scene.maps import Enclosure, PlacedLamp, Surface, compute_maps
 
 
 def _scene():

@@ -1,4 +1,4 @@
-"""Tests of the site history glue and the import/forecast commands (audit_lib.forecast)."""
+"""Tests of the site history glue and the import/forecast commands (audit_lib.pipeline.forecast)."""
 
 import math
 from types import SimpleNamespace
@@ -6,8 +6,12 @@ from types import SimpleNamespace
 import pandas as pd
 import pytest
 
-from audit_lib import cli, forecast, history
-from audit_lib.site import new_site
+from audit_lib.run import cli
+
+from audit_lib.pipeline import forecast
+
+from audit_lib.history import store as history
+from audit_lib.site.folder import new_site
 
 K_PER_H = 5e-5  # synthetic exponential decay rate [h-1]
 INSTALLED = pd.Timestamp("2025-09-01")  # install day of tube-1 in the starter site
@@ -109,7 +113,7 @@ def test_explicit_file_is_checked_against_the_site(site, tmp_path, capsys):
 
 def test_import_replace_flag(site, capsys):
     """`light-audit import --replace` swaps a corrected file for its earlier import
-    (audit_lib.history.import_readings, replace=True)."""
+    (audit_lib.history.store.import_readings, replace=True)."""
     assert cli.main(["import", str(site)]) == 0
     path = site / "readings" / "first-audit.csv"
     path.write_text(path.read_text().replace(",0.3,UVI", ",0.4,UVI"))
@@ -125,8 +129,8 @@ def test_forecast_uses_mismatch_corrected_readings(site, capsys):
     (CIE S 017:2020 17-25-115), marked with '*'; --raw fits the readings as taken."""
     import numpy as np
 
-    from audit_lib.meter_corrections import site_meter_corrections
-    from audit_lib.site import load_site
+    from audit_lib.pipeline.meter_corrections import site_meter_corrections
+    from audit_lib.site.folder import load_site
 
     wl = np.arange(250, 401)
     rows = "\n".join(f"{w},{1.0 if w >= 280 else 0.0}" for w in wl)

@@ -1,4 +1,4 @@
-"""Tests of the audit history store (audit_lib.history)."""
+"""Tests of the audit history store (audit_lib.history.store)."""
 
 import sqlite3
 
@@ -6,12 +6,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib import history
+from audit_lib.history import store as history
 from audit_lib.errors import AuditError, InputError
 
 
 def make_readings(rows, source_file="audit-2024.csv"):
-    """Build a readings table following the readings contract (audit_lib.readings)."""
+    """Build a readings table following the readings contract (audit_lib.site.readings)."""
     records = []
     for i, (date, enclosure, lamp, position, value) in enumerate(rows):
         records.append({

@@ -1,11 +1,11 @@
-"""Tests of site-level meter corrections (audit_lib.meter_corrections)."""
+"""Tests of site-level meter corrections (audit_lib.pipeline.meter_corrections)."""
 
 import numpy as np
 import pytest
 
-from audit_lib.action_spectra import erythema_cie1998
-from audit_lib.meter_corrections import correct_site_readings, site_meter_corrections
-from audit_lib.site import load_site, new_site
+from audit_lib.light.action_spectra import erythema_cie1998
+from audit_lib.pipeline.meter_corrections import correct_site_readings, site_meter_corrections
+from audit_lib.site.folder import load_site, new_site
 
 
 def _site_with_response(tmp_path, response):

@@ -1,13 +1,13 @@
-"""Tests of the spectral mismatch correction of broadband meters (audit_lib.meters)."""
+"""Tests of the spectral mismatch correction of broadband meters (audit_lib.light.meters)."""
 
 import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib import meters
-from audit_lib.action_spectra import erythema_cie1998
+from audit_lib.light import meters
+from audit_lib.light.action_spectra import erythema_cie1998
 from audit_lib.errors import InputError
-from audit_lib.spectra import Spectrum
+from audit_lib.light.spectra import Spectrum
 
 WL = np.arange(250.0, 420.5, 0.5)
 

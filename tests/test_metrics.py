@@ -5,8 +5,8 @@ import math
 import numpy as np
 import pytest
 
-from audit_lib import metrics as m
-from audit_lib.spectra import Spectrum
+from audit_lib.light import metrics as m
+from audit_lib.light.spectra import Spectrum
 
 
 def _analytic_erythemal_integral():

@@ -15,7 +15,7 @@ import nbformat
 import pytest
 from nbformat.v4 import new_code_cell, new_markdown_cell, new_notebook, new_output
 
-from audit_lib.notebooks import (
+from audit_lib.run.notebooks import (
     HIDDEN_TAGS,
     REPORT_DATA_MIMETYPE,
     WarmKernel,

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.photoperiod import (
+from audit_lib.day.photoperiod import (
     LevelSchedule,
     NaturalDaySchedule,
     OnOffSchedule,
@@ -15,7 +15,7 @@ from audit_lib.photoperiod import (
     lit_hours,
     parse_clock,
 )
-from audit_lib.sunlight import day_length_h
+from audit_lib.light.sun import day_length_h
 
 
 @pytest.mark.parametrize("step_s", [60.0, 30.0, 10.0])
@@ -135,7 +135,7 @@ def test_whole_day_and_zero_length():
 def test_schedule_by_season_hemispheres():
     """Meteorological seasons (WMO convention: winter = Dec-Feb in the north); the southern
     hemisphere's winter is June-August."""
-    from audit_lib.photoperiod import schedule_by_season
+    from audit_lib.day.photoperiod import schedule_by_season
 
     short = OnOffSchedule(on="09:00", off="17:00")
     long_ = OnOffSchedule(on="07:00", off="21:00")
@@ -156,7 +156,7 @@ def test_lit_hours_of_table_counts_whole_steps():
     steps, no floating-point drift that would put 14 h 'above' a 14 h limit)."""
     import datetime as dt
 
-    from audit_lib.photoperiod import OnOffSchedule, daily_profiles, lit_hours_of_table
+    from audit_lib.day.photoperiod import OnOffSchedule, daily_profiles, lit_hours_of_table
 
     profiles = daily_profiles({"a": OnOffSchedule(on="06:00", off="20:00"),
                                "b": OnOffSchedule(on="07:00", off="19:00")},

@@ -1,4 +1,4 @@
-"""Tests of the what-if planner (audit_lib.planner).
+"""Tests of the what-if planner (audit_lib.pipeline.planner).
 
 External references: the inverse-square law of a point source (Lambert, Photometria 1760;
 McCluney, Introduction to Radiometry and Photometry, 2nd ed. 2014, ch. 2); the UV Index
@@ -8,7 +8,7 @@ standard erythema dose (CIE S 007/E-1998: 1 SED = 100 J m-2); the ICNIRP 2004 ac
 open-area transmission of a square wire mesh, (1 - d/p)^2 (geometry; Burger, Gehrmann &
 Ferguson 2007, Zoo Biology 26:417); superposition of incoherent sources (irradiances add).
 Consistency checks compare the planner with the library's orchestrator
-(:func:`audit_lib.audit.audit_enclosure`), whose parts are checked against published sources
+(:func:`audit_lib.pipeline.audit.audit_enclosure`), whose parts are checked against published sources
 in their own tests.
 """
 
@@ -21,15 +21,15 @@ import numpy as np
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.planner import WhatIfPlanner
-from audit_lib.scenarios import BlankEnclosure
+from audit_lib.pipeline.planner import WhatIfPlanner
+from audit_lib.pipeline.scenarios import BlankEnclosure
 
 DEMO = Path(__file__).resolve().parents[1] / "sample_sites" / "kestrel-moor-wildlife-park"
 
 
 @pytest.fixture(scope="module")
 def site():
-    from audit_lib.site import load_site
+    from audit_lib.site.folder import load_site
 
     return load_site(DEMO)
 
@@ -106,10 +106,10 @@ def test_failed_emitters_superpose(site):
 def test_planner_sequence_matches_the_library_maps(site):
     """Driving the planner through a sequence of changes gives the maps that the library's
     own path gives (site records -> assemble.build_scene -> scene.compute_maps with the failed
-    labels); reference: superposition of incoherent sources, as in audit_lib.scene."""
-    from audit_lib.assemble import build_scene, failed_labels
-    from audit_lib.scenarios import apply_plan
-    from audit_lib.scene import compute_maps
+    labels); reference: superposition of incoherent sources, as in audit_lib.scene.maps."""
+    from audit_lib.pipeline.assemble import build_scene, failed_labels
+    from audit_lib.pipeline.scenarios import apply_plan
+    from audit_lib.scene.maps import compute_maps
 
     planner = WhatIfPlanner(site, "rh-09", shape=(24, 36))
     steps = [{"z_m": 1.7}, {"failed_emitters": (3, 5)}, {"x_m": 0.8, "screen": "mesh-coarse"},
@@ -131,13 +131,13 @@ def test_planner_agrees_with_the_audit_orchestrator(site, tmp_path):
     """The planner's figures and verdict equal audit_enclosure's on the same plan written as
     a scenario site (same 2 cm grid; lamps as new): basking maximum, refuge share, hours of
     light, the animal's mean UV Index (time budget) and every check value.
-    Reference: audit_lib.audit (each stage checked against its published source in its own
+    Reference: audit_lib.pipeline.audit (each stage checked against its published source in its own
     tests: WHO 2002, CIE S 007, ICNIRP 2004, Ferguson et al. 2010 zones from memory)."""
     import shutil
 
-    from audit_lib.audit import audit_enclosure
-    from audit_lib.scenarios import write_scenario_site
-    from audit_lib.site import load_site
+    from audit_lib.pipeline.audit import audit_enclosure
+    from audit_lib.pipeline.scenarios import write_scenario_site
+    from audit_lib.site.folder import load_site
 
     root = tmp_path / "site"
     shutil.copytree(DEMO, root)

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from audit_lib.errors import InputErrors
-from audit_lib.readings import COLUMNS, read_readings, read_readings_with_problems
+from audit_lib.site.readings import COLUMNS, read_readings, read_readings_with_problems
 
 HEADER = "date,enclosure,lamp,position,x_m,y_m,z_m,distance_m,quantity,value,unit,meter,note"
 ROWS = [

@@ -23,8 +23,8 @@ PIN = HERE / "data" / "regression" / "kestrel_moor_checks.json"
 
 @pytest.fixture(scope="module")
 def park_audits():
-    from audit_lib.audit import audit_enclosure
-    from audit_lib.site import load_site
+    from audit_lib.pipeline.audit import audit_enclosure
+    from audit_lib.site.folder import load_site
 
     site = load_site(SITE)
     with warnings.catch_warnings():

@@ -6,7 +6,7 @@ import matplotlib
 import numpy as np
 import pandas as pd
 
-from audit_lib import decay
+from audit_lib.history import decay
 from audit_lib.report.decay import plot_decay
 
 matplotlib.use("Agg")
@@ -44,7 +44,7 @@ def test_figure_shows_readings_target_and_analytic_forecast(tmp_path):
 
 def test_figure_without_fit_says_so():
     """Two readings cannot be fitted: the figure shows them and says "not enough data"
-    (same rule as audit_lib.decay.MIN_POINTS)."""
+    (same rule as audit_lib.history.decay.MIN_POINTS)."""
     import matplotlib.pyplot as plt
 
     points = pd.DataFrame({"hours": [0.0, 1000.0], "value": [3.0, 2.8]})
@@ -57,7 +57,7 @@ def test_figure_without_fit_says_so():
 
 def test_plot_lamp_decay_titles_the_state():
     """The lamp figure carries enclosure, lamp and state (as computed by
-    audit_lib.decay.analyse_lamp_decay) in its title."""
+    audit_lib.history.decay.analyse_lamp_decay) in its title."""
     import matplotlib.pyplot as plt
 
     from audit_lib.report.decay import plot_lamp_decay

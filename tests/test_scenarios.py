@@ -1,4 +1,4 @@
-"""Tests of saved what-if scenarios (audit_lib.scenarios).
+"""Tests of saved what-if scenarios (audit_lib.pipeline.scenarios).
 
 External references: TOML 1.0 (toml.io; files are read back with the standard library's
 tomllib, Python >= 3.11); SHA-256 (FIPS 180-4, via hashlib) to show the site file and the
@@ -18,8 +18,8 @@ import pytest
 import tomllib
 
 from audit_lib.errors import InputError
-from audit_lib.planner import WhatIfPlanner
-from audit_lib.scenarios import (
+from audit_lib.pipeline.planner import WhatIfPlanner
+from audit_lib.pipeline.scenarios import (
     BlankEnclosure,
     builtin_screens,
     list_scenarios,
@@ -27,7 +27,7 @@ from audit_lib.scenarios import (
     scenario_path,
     write_scenario_site,
 )
-from audit_lib.site import load_site
+from audit_lib.site.folder import load_site
 
 DEMO = Path(__file__).resolve().parents[1] / "sample_sites" / "kestrel-moor-wildlife-park"
 
@@ -86,8 +86,8 @@ def test_scenario_site_reproduces_the_plan_with_output_scaled_in_the_records(sit
     """The scenario written as a site of its own (one enclosure, no readings, output share
     written into the lamp model's rated output) loads and gives the planner's maps: weighted
     irradiance is linear in output (CIE 17.4 / ISO 17166 definitions)."""
-    from audit_lib.assemble import build_scene, failed_labels
-    from audit_lib.scene import compute_maps
+    from audit_lib.pipeline.assemble import build_scene, failed_labels
+    from audit_lib.scene.maps import compute_maps
 
     site = load_site(site_copy)
     planner = WhatIfPlanner(site, "rh-09", shape=(16, 20))
@@ -145,7 +145,7 @@ def test_batch_renders_a_scenario_report(site_copy, tmp_path):
     (papermill + nbconvert, as for any site) and a results.json naming the scenario site."""
     import json
 
-    from audit_lib.cli import main
+    from audit_lib.run.cli import main
 
     planner = WhatIfPlanner(load_site(site_copy), "rh-12", shape=(8, 8))
     planner.update(z_m=0.6)

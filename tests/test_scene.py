@@ -8,9 +8,9 @@ import warnings
 import numpy as np
 import pytest
 
-from audit_lib.emitters import EmitterType, lambertian_order, line_shape, pattern_solid_angle
+from audit_lib.sources.emitters import EmitterType, lambertian_order, line_shape, pattern_solid_angle
 from audit_lib.errors import InputError
-from audit_lib.lamps import (
+from audit_lib.sources.lamps import (
     LedArray,
     MeasuredLamp,
     OutsideMeasuredRangeWarning,
@@ -21,7 +21,7 @@ from audit_lib.lamps import (
     lamp_spectrum,
     line_of_emitters,
 )
-from audit_lib.scene import (
+from audit_lib.scene.maps import (
     Enclosure,
     PlacedLamp,
     Screen,
@@ -33,7 +33,7 @@ from audit_lib.scene import (
     statistics_table,
     surface_statistics,
 )
-from audit_lib.spectra import Spectrum
+from audit_lib.light.spectra import Spectrum
 
 FLAT = Spectrum(np.arange(250.0, 801.0, 1.0), np.ones(551), name="flat")
 
@@ -319,7 +319,7 @@ def test_measured_lamp_reproduces_model_basking_uvi_within_10_percent():
 
 def test_pattern_solid_angle_isotropic():
     """An isotropic source spreads its flux over 4 pi sr."""
-    from audit_lib.lamps import ISOTROPIC
+    from audit_lib.sources.lamps import ISOTROPIC
 
     assert pattern_solid_angle(ISOTROPIC) == pytest.approx(4 * math.pi, rel=1e-6)
     assert line_shape(300, 300, 10) == 1.0
@@ -342,7 +342,7 @@ def test_measured_lamp_from_readings_table():
     distances are averaged; a power law through exact 1/d^2 data has exponent 2."""
     import pandas as pd
 
-    from audit_lib.lamps import measured_lamp_from_readings
+    from audit_lib.sources.lamps import measured_lamp_from_readings
 
     rows = [("tube", d, "uvi", 0.27 / d**2) for d in (0.2, 0.3, 0.3, 0.4)]
     rows += [("tube", float("nan"), "uvi", 9.0), ("other", 0.2, "uvi", 1.0)]
@@ -382,7 +382,7 @@ def test_reflector_acts_only_in_front_of_the_lamp():
 def test_lamp_spectrum_matches_the_map_in_the_far_field():
     """Beyond about five times its size a lamp acts as a point source (lighting handbooks,
     'five-times rule'): the map below the bar at 2 m matches its far-field spectrum within 1 %."""
-    from audit_lib.emitters import weigh_spectral
+    from audit_lib.sources.emitters import weigh_spectral
 
     bar = _demo_bar()
     enc = Enclosure("tall", 3.0, 3.0, 3.0, lamps=(PlacedLamp(bar, 1.5, 1.5, 2.2),))

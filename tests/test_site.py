@@ -9,9 +9,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib.cli import main
+from audit_lib.run.cli import main
 from audit_lib.errors import InputError
-from audit_lib.site import check_site, load_site, new_site, save_site
+from audit_lib.site.folder import check_site, load_site, new_site, save_site
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
 PARK = SAMPLES / "kestrel-moor-wildlife-park"
@@ -149,7 +149,7 @@ def test_park_failed_emitter_shows_in_2026_only(park):
 
 def test_park_enclosure_without_refuge(park):
     """rh-08 has no place at or below UVI 0.5 (refuge threshold, common practice as in
-    audit_lib.targets.REFUGE_UVI_MAX) while the other enclosures have one."""
+    audit_lib.judge.targets.REFUGE_UVI_MAX) while the other enclosures have one."""
     r = park.readings
     sel = r[(r["quantity"] == "uvi") & (r["position"] != "") & (r["date"].dt.year == 2026)]
     lowest = sel.groupby("enclosure")["value_si"].min()
@@ -160,8 +160,8 @@ def test_park_enclosure_without_refuge(park):
 def test_park_spectra_files_read_and_match_their_reference(park):
     """The instrument-style spectrum files read with the spectral core and give the model's
     reference UVI (UVI = 40 m2/W x erythemal irradiance; WHO 2002, CIE S 007/E-1998)."""
-    from audit_lib.metrics import weighted_quantities
-    from audit_lib.spectra import read_spectrum
+    from audit_lib.light.metrics import weighted_quantities
+    from audit_lib.light.spectra import read_spectrum
 
     for model_id in ("flood-uvb-100w", "t5-uvb-115cm"):
         model = park.lamp_model(model_id)
@@ -215,7 +215,7 @@ def test_docs_examples_parse_and_use_only_known_keys():
     schema knows (SI keys or their unit-string stems), so the documentation cannot drift."""
     import re
 
-    import audit_lib.site_schema as schema
+    import audit_lib.site.schema as schema
 
     try:
         import tomllib
@@ -241,7 +241,7 @@ def test_docs_examples_parse_and_use_only_known_keys():
 def test_meter_overdue_for_calibration_warns(tmp_path):
     """A meter used more than a year after calibration gets a warning, not an error (yearly
     calibration of handheld UV meters: common practice)."""
-    from audit_lib.site import SiteWarning
+    from audit_lib.site.folder import SiteWarning
 
     new_site(tmp_path)
     path = tmp_path / "site.toml"

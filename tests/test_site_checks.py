@@ -9,10 +9,10 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.cli import main
+from audit_lib.run.cli import main
 from audit_lib.errors import InputErrors
-from audit_lib.site import check_site, load_site, new_site
-from audit_lib.site_errors import locate_keys
+from audit_lib.site.folder import check_site, load_site, new_site
+from audit_lib.site.messages import locate_keys
 
 BROKEN = Path(__file__).parent / "data" / "broken_site"
 TODAY = dt.date(2026, 12, 1)

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.metrics import weighted_quantities
-from audit_lib.spectra import Spectrum, SpectrumWarning, read_spectrum, resample_spectrum
+from audit_lib.light.metrics import weighted_quantities
+from audit_lib.light.spectra import Spectrum, SpectrumWarning, read_spectrum, resample_spectrum
 
 DATA = __import__("pathlib").Path(__file__).parent / "data" / "spectra"
 
@@ -142,7 +142,7 @@ def test_no_warnings_for_clean_file():
 def test_transmittance_fraction_and_percent(tmp_path):
     """A screen's spectral transmittance as a fraction or in percent (definition of
     transmittance, CIE ILV 17-1303: ratio of transmitted to incident flux)."""
-    from audit_lib.spectra import read_transmittance
+    from audit_lib.light.spectra import read_transmittance
 
     frac = _write(tmp_path, "wavelength,transmittance\n280,0.1\n300,0.5\n400,0.9\n", "f.csv")
     pct = _write(tmp_path, "wavelength,transmittance [%]\n280,10\n300,50\n400,90\n", "p.csv")

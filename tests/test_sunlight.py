@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.sunlight import (
+from audit_lib.light.sun import (
     clear_sky_daily_dose_sed,
     clear_sky_uvi,
     clear_sky_uvi_day,

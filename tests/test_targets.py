@@ -3,7 +3,7 @@ import math
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.targets import (
+from audit_lib.judge.targets import (
     ABOVE,
     BELOW,
     NO_DATA,
@@ -46,7 +46,7 @@ def test_zone_table_matches_reference_readme():
 
 def test_zone_file_header_names_source_and_status():
     """Data files carry their source in the header (pvlib convention, conventions.md)."""
-    from audit_lib.targets import DATA_DIR
+    from audit_lib.judge.targets import DATA_DIR
 
     header = [ln for ln in (DATA_DIR / "ferguson_zones.csv").read_text().splitlines()
               if ln.startswith("#")]

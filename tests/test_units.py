@@ -3,7 +3,7 @@
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.units import normalise_unit, to_si
+from audit_lib.light.units import normalise_unit, to_si
 
 
 @pytest.mark.parametrize("unit", ["uW/cm^2", "µW/cm²", "μW/cm2", "uW cm-2", "µW·cm⁻²"])

@@ -3,8 +3,8 @@ import datetime as dt
 import pytest
 
 from audit_lib.errors import InputError
-from audit_lib.targets import NO_DATA, WITHIN, read_zone_table, species_targets
-from audit_lib.verdicts import (
+from audit_lib.judge.targets import NO_DATA, WITHIN, read_zone_table, species_targets
+from audit_lib.judge.verdicts import (
     ATTENTION,
     MEETS,
     assess_enclosure,

@@ -1,4 +1,4 @@
-"""Tests of the what-if panel (audit_lib.widgets) and its workbook, headless.
+"""Tests of the what-if panel (audit_lib.run.widgets) and its workbook, headless.
 
 External references: ipywidgets' documented trait notification (setting ``value`` calls the
 observers registered with ``observe(names="value")``); the PNG signature (ISO/IEC 15948,
@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from audit_lib.widgets import WhatIfPanel, WhatIfPlanner, open_panel
+from audit_lib.run.widgets import WhatIfPanel, WhatIfPlanner, open_panel
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "sample_sites" / "kestrel-moor-wildlife-park"
@@ -86,7 +86,7 @@ def test_bad_light_time_shows_an_error_and_keeps_the_plan(panel):
 
 def test_save_button_writes_a_scenario(panel):
     """The save button writes SITE/scenarios/<name>.toml, read back by the loader (TOML 1.0)."""
-    from audit_lib.scenarios import read_scenario
+    from audit_lib.pipeline.scenarios import read_scenario
 
     panel.controls["species"].value = "uromastyx-ocellata"
     panel.scenario_name.value = "rock-species"

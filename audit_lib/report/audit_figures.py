@@ -1,6 +1,6 @@
 """Figures of one enclosure's audit: surface maps, the day's UV Index beside the sun's, spectra.
 
-Each function takes an :class:`audit_lib.audit.EnclosureAudit` and returns a matplotlib
+Each function takes an :class:`audit_lib.pipeline.audit.EnclosureAudit` and returns a matplotlib
 figure drawn from the record's numbers, in the project's style (:mod:`audit_lib.report.style`:
 Okabe-Ito colours, the cividis colour map, constrained layout).
 """
@@ -10,6 +10,11 @@ from __future__ import annotations
 import math
 
 import numpy as np
+
+from audit_lib.report.daily import plot_daily_uvi, plot_monthly_doses
+from audit_lib.report.decay import plot_lamp_decay
+from audit_lib.report.maps import MAP_LABELS, plot_coverage_distribution, plot_surface_map
+from audit_lib.report.spectrum import plot_spectrum
 
 
 def plot_maps(audit, quantity: str = "uvi"):
@@ -27,7 +32,6 @@ def plot_maps(audit, quantity: str = "uvi"):
     """
     import matplotlib.pyplot as plt
 
-    from audit_lib.report.maps import MAP_LABELS, plot_surface_map
 
     maps = list(audit.maps.values())
     cols = min(2, len(maps))
@@ -55,8 +59,6 @@ def plot_daily(audit):
     The clear-sky sun at the site is scaled so its peak sits in the zone's maximum range
     (:func:`audit_lib.report.daily.plot_daily_uvi`), to compare shapes, not levels.
     """
-    from audit_lib.report.daily import plot_daily_uvi
-
     daily = audit.daily
     curves = {"enclosure, basking maximum": daily["enclosure_uvi"]} \
         if "enclosure_uvi" in daily else {}
@@ -69,8 +71,6 @@ def plot_daily(audit):
 
 def plot_monthly(audit):
     """Daily erythemal dose and hours of light by month (:mod:`audit_lib.report.daily`)."""
-    from audit_lib.report.daily import plot_monthly_doses
-
     if audit.monthly is None:
         return None
     result = plot_monthly_doses(audit.monthly, title="At the basking maximum")
@@ -79,15 +79,11 @@ def plot_monthly(audit):
 
 def plot_lamp_decays(audit):
     """Each lamp's readings over time with both decay fits and the forecast."""
-    from audit_lib.report.decay import plot_lamp_decay
-
     return [plot_lamp_decay(d, today=audit.audit_date) for d in audit.decays]
 
 
 def plot_failure_study(audit):
     """Basking coverage over the Monte Carlo failure trials (None without LED arrays)."""
-    from audit_lib.report.maps import plot_coverage_distribution
-
     if audit.failure_study is None:
         return None
     return plot_coverage_distribution(audit.failure_study)
@@ -95,8 +91,6 @@ def plot_failure_study(audit):
 
 def plot_lamp_spectra(audit):
     """Each lamp model's spectrum with bands and action spectra (one figure per model)."""
-    from audit_lib.report.spectrum import plot_spectrum
-
     return [plot_spectrum(spectrum) for spectrum in audit.lamp_spectra.values()]
 
 

@@ -21,7 +21,7 @@ def sun_scale_for_zone(sun_uvi, zone) -> float:
     ----------
     sun_uvi : array_like
         Clear-sky UV Index through the day [-].
-    zone : audit_lib.targets.Zone
+    zone : audit_lib.judge.targets.Zone
         Target zone.
 
     Returns
@@ -42,12 +42,12 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
     Parameters
     ----------
     curves : pandas.Series, dict of str to pandas.Series, or pandas.DataFrame
-        UV Index [-] indexed by local clock hours (e.g. :func:`audit_lib.dose.uvi_series`);
+        UV Index [-] indexed by local clock hours (e.g. :func:`audit_lib.day.dose.uvi_series`);
         several named curves (basking spot, animal, refuge) or columns share the axes.
-    zone : audit_lib.targets.Zone, optional
+    zone : audit_lib.judge.targets.Zone, optional
         Shades the mean-exposure range and the maximum range, labelled with their status.
     sun : pandas.DataFrame, optional
-        ``time_h`` and ``uvi`` columns (:func:`audit_lib.sunlight.clear_sky_uvi_day`); drawn
+        ``time_h`` and ``uvi`` columns (:func:`audit_lib.light.sun.clear_sky_uvi_day`); drawn
         scaled so that its peak sits in the middle of the zone's maximum range (Madronich
         2007 shape), with the scale factor in the legend.
     sun_label : str
@@ -109,7 +109,7 @@ def plot_monthly_doses(table, *, ax=None, title=""):
     Parameters
     ----------
     table : pandas.DataFrame
-        :func:`audit_lib.dose.monthly_table` output (``sed``, ``lit_hours``, optionally
+        :func:`audit_lib.day.dose.monthly_table` output (``sed``, ``lit_hours``, optionally
         ``sun_clear_sky_sed``).
     ax : matplotlib.axes.Axes, optional
         Axes to draw on.

@@ -27,8 +27,8 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
     ----------
     points : pandas.DataFrame
         Columns ``hours`` [h] and ``value`` (e.g. from
-        :func:`audit_lib.decay.select_decay_points`).
-    fit : audit_lib.decay.DecayFit
+        :func:`audit_lib.history.decay.select_decay_points`).
+    fit : audit_lib.history.decay.DecayFit
         The fit of those points; the better model is drawn solid, the other dashed.
     installed_on : date-like
         Install day of the lamp (lamp hours 0).
@@ -36,7 +36,7 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
         Hours on per day, to turn lamp hours into dates [h].
     threshold : float, optional
         Lowest acceptable value (lower end of the zone's range), drawn as a line [unit].
-    forecast : audit_lib.decay.Forecast, optional
+    forecast : audit_lib.history.decay.Forecast, optional
         Forecast date and 68 % band, drawn as a line and a shaded span.
     today : date-like, optional
         Marks the day of the audit.
@@ -97,12 +97,12 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
 
 
 def plot_lamp_decay(result, *, today=None, ax=None, unit_label: str = "UV Index [-]"):
-    """Plot a :class:`audit_lib.decay.LampDecay` (see :func:`plot_decay`).
+    """Plot a :class:`audit_lib.history.decay.LampDecay` (see :func:`plot_decay`).
 
     Parameters
     ----------
-    result : audit_lib.decay.LampDecay
-        From :func:`audit_lib.decay.analyse_lamp_decay`.
+    result : audit_lib.history.decay.LampDecay
+        From :func:`audit_lib.history.decay.analyse_lamp_decay`.
     today : date-like, optional
         Marks the day of the audit.
     ax : matplotlib.axes.Axes, optional

@@ -1,6 +1,6 @@
 """Tables, HTML blocks and the report data of one enclosure's audit (thin views of the record).
 
-Every function takes an :class:`audit_lib.audit.EnclosureAudit` and returns something a
+Every function takes an :class:`audit_lib.pipeline.audit.EnclosureAudit` and returns something a
 workbook cell shows as it is: an HTML block, a pandas table or a matplotlib figure. Text that
 comes from a site file is escaped here (:func:`html.escape`); pandas tables are escaped by
 pandas. Nothing is computed here that the report's reader would need to check: figures are
@@ -15,9 +15,10 @@ from html import escape
 import numpy as np
 import pandas as pd
 
+from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.index_page import state_class
 
-#: MIME type of the report data (see :mod:`audit_lib.notebooks`).
+#: MIME type of the report data (see :mod:`audit_lib.run.notebooks`).
 REPORT_DATA_MIMETYPE = "application/vnd.audit-lib.report+json"
 
 
@@ -65,8 +66,6 @@ def report_data(audit) -> dict:
     entry in ``results.json`` (verdict and every check with figure, unit, target range,
     state and reason; infinite limits as null).
     """
-    from audit_lib.report.cautions import CAUTIONS
-
     facts = [("Site", audit.site_name),
              ("Enclosure", f"{audit.enclosure_name} ({audit.enclosure_id})"),
              ("Audit date", audit.audit_date.isoformat())]

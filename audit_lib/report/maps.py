@@ -10,6 +10,8 @@ from __future__ import annotations
 import numpy as np
 
 from audit_lib.report.style import MAP_COLORMAP, PALETTE, new_figure
+from audit_lib.scene.maps import placed_groups, rotation_matrix
+from audit_lib.sources.lamps import LedArray, TubeLamp
 
 #: Axis labels of the map quantities (units in square brackets).
 MAP_LABELS = {
@@ -33,7 +35,7 @@ def lamp_outline(placed) -> np.ndarray:
 
     Parameters
     ----------
-    placed : audit_lib.scene.PlacedLamp
+    placed : audit_lib.scene.maps.PlacedLamp
         The lamp in place.
 
     Returns
@@ -41,9 +43,6 @@ def lamp_outline(placed) -> np.ndarray:
     numpy.ndarray
         (5, 2) x, y corners [m], first corner repeated.
     """
-    from audit_lib.lamps import LedArray, TubeLamp
-    from audit_lib.scene import rotation_matrix
-
     lamp = placed.lamp
     if isinstance(lamp, LedArray):
         xy = np.array([[e.x_m, e.y_m] for e in lamp.emitters])
@@ -75,13 +74,13 @@ def plot_surface_map(
 
     Parameters
     ----------
-    surface_map : audit_lib.scene.SurfaceMap
-        Map from :func:`audit_lib.scene.compute_maps`.
+    surface_map : audit_lib.scene.maps.SurfaceMap
+        Map from :func:`audit_lib.scene.maps.compute_maps`.
     quantity : str, optional
         Quantity to show (a key of ``surface_map.values``).
     uvi_range : tuple of float, optional
         (lo, hi) UV Index range drawn as contours (lo dashed, hi solid) [-].
-    enclosure : audit_lib.scene.Enclosure, optional
+    enclosure : audit_lib.scene.maps.Enclosure, optional
         Draws lamp outlines and emitter positions (failed emitters crossed out).
     ax : matplotlib.axes.Axes, optional
         Axes to draw into; a new figure otherwise.
@@ -167,8 +166,6 @@ def _range_contours(ax, m, uvi_range) -> None:
 
 
 def _draw_lamps(ax, enclosure, m, show_emitters: bool) -> None:
-    from audit_lib.lamps import LedArray
-    from audit_lib.scene import placed_groups
 
     for placed in enclosure.lamps:
         outline = lamp_outline(placed)
@@ -222,8 +219,8 @@ def plot_coverage_distribution(result, ax=None):
 
     Parameters
     ----------
-    result : audit_lib.failures.MonteCarloResult
-        Output of :func:`audit_lib.failures.monte_carlo_failures`.
+    result : audit_lib.scene.failures.MonteCarloResult
+        Output of :func:`audit_lib.scene.failures.monte_carlo_failures`.
     ax : matplotlib.axes.Axes, optional
         Axes to draw into.
 

@@ -1,4 +1,4 @@
-"""Tables and the figure of the site overview (views of an :class:`audit_lib.audit.SiteAudit`)."""
+"""Tables and the figure of the site overview (views of a site audit)."""
 
 from __future__ import annotations
 
@@ -7,6 +7,7 @@ import math
 import numpy as np
 import pandas as pd
 
+from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE
 from audit_lib.report.style import PALETTE, STATE_COLOURS, new_figure
 
@@ -80,8 +81,6 @@ def replacement_table(overview) -> pd.DataFrame:
 
 def overview_data(overview) -> dict:
     """Report data of the overview (header for the template; verdict counts as results)."""
-    from audit_lib.report.cautions import CAUTIONS
-
     facts = [("Site", overview.site_name), ("Audit date", overview.audit_date.isoformat())]
     facts += [(label, value) for label, value in (
         ("Auditor", overview.auditor), ("Organisation", overview.organisation),

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from audit_lib.action_spectra import ACTION_SPECTRA, ACTION_SPECTRUM_RANGES_NM
+from audit_lib.light.action_spectra import ACTION_SPECTRA, ACTION_SPECTRUM_RANGES_NM
+from audit_lib.light.metrics import METRIC_LABELS, format_metric
 from audit_lib.report.style import BAND_COLOURS, PALETTE, new_figure
 
 #: Bands shaded behind the spectrum [nm] (CIE; ISO 21348).
@@ -24,13 +25,13 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
 
     Parameters
     ----------
-    spectrum : audit_lib.spectra.Spectrum
+    spectrum : audit_lib.light.spectra.Spectrum
         Spectral irradiance [W m-2 nm-1], shown in mW m-2 nm-1.
     ax : matplotlib.axes.Axes, optional
         Axes to draw into; a new figure is made if None.
     log_scale : bool
         Logarithmic irradiance axis (shows short-wave leakage).
-    sun : audit_lib.spectra.Spectrum, optional
+    sun : audit_lib.light.spectra.Spectrum, optional
         A sunlight reference to draw scaled to the same UVB irradiance, for comparison.
     xlim_nm : (float, float), optional
         Wavelength range shown [nm]; defaults to the spectrum's range within 250–800 nm.
@@ -84,7 +85,7 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
 
 
 def metrics_table(metrics: dict):
-    """Return :func:`audit_lib.metrics.spectrum_metrics` as a display table.
+    """Return :func:`audit_lib.light.metrics.spectrum_metrics` as a display table.
 
     Parameters
     ----------
@@ -99,7 +100,6 @@ def metrics_table(metrics: dict):
     """
     import pandas as pd
 
-    from audit_lib.metrics import METRIC_LABELS, format_metric
 
     rows = []
     for key, (label, unit) in METRIC_LABELS.items():

@@ -42,14 +42,14 @@ def verdict_frame(verdict):
 
     Parameters
     ----------
-    verdict : audit_lib.verdicts.Verdict
+    verdict : audit_lib.judge.verdicts.Verdict
         The verdict.
 
     Returns
     -------
     pandas.DataFrame
         Columns ``check, state, value, target, unit, reason, source, status`` (text, for
-        display; the numbers stay in the verdict's :class:`~audit_lib.targets.Check` records).
+        display; the numbers stay in the verdict's :class:`~audit_lib.judge.targets.Check` records).
     """
     import pandas as pd
 
@@ -81,7 +81,7 @@ def style_verdict_table(verdict):
 
     Parameters
     ----------
-    verdict : audit_lib.verdicts.Verdict
+    verdict : audit_lib.judge.verdicts.Verdict
         The verdict.
 
     Returns
@@ -107,7 +107,7 @@ def verdict_html(verdict) -> str:
 
     Parameters
     ----------
-    verdict : audit_lib.verdicts.Verdict
+    verdict : audit_lib.judge.verdicts.Verdict
         The verdict.
 
     Returns

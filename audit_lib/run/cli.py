@@ -1,0 +1,275 @@
+"""The ``light-audit`` command: a thin wrapper over library calls.
+
+Each subcommand has a ``_add_<name>_parser(subparsers)`` function that registers it and a
+handler that calls one library function. Bad input exits with status 2 and one message
+naming the file, line and field; never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import warnings
+
+from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
+from audit_lib.light.metrics import format_metrics_table, spectrum_metrics
+from audit_lib.light.spectra import read_spectrum
+from audit_lib.light.sun import format_sun_summary, sun_summary
+from audit_lib.pipeline.forecast import (
+    format_schedule,
+    import_site_readings,
+    site_replacement_schedule,
+)
+from audit_lib.run.batch import run_batch, run_scenario
+from audit_lib.site.folder import load_site, new_site, summarise_site
+from audit_lib.sources.emitters import fit_line_shape
+
+
+def _add_spectrum_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "spectrum",
+        help="weighted quantities of one measured spectrum (UV Index, vitamin D, bands, lux, ...)",
+    )
+    p.add_argument("file", help="spectrum file (CSV, TSV or TXT): wavelength [nm] and irradiance")
+    p.add_argument(
+        "--unit",
+        help="unit of the irradiance column if the header does not say it, e.g. 'uW/cm^2/nm'",
+    )
+    p.add_argument("--json", action="store_true", help="print one JSON object (SI units)")
+    p.set_defaults(handler=_run_spectrum)
+
+
+def _run_spectrum(args) -> int:
+    import json
+
+
+    spectrum = read_spectrum(args.file, unit=args.unit)
+    result = spectrum_metrics(spectrum)
+    if args.json:
+        print(json.dumps(result, indent=2, allow_nan=False))
+    else:
+        print(format_metrics_table(result, title=spectrum.name))
+    return 0
+
+
+def _add_check_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "check", help="validate a site folder and list every problem (exit status 2 if any)"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.set_defaults(handler=_run_check)
+
+
+def _run_check(args) -> int:
+
+    try:
+        site = load_site(args.site)
+    except InputErrors as exc:
+        for problem in exc.problems:
+            print(problem, file=sys.stderr)
+        print(f"{len(exc.problems)} problem(s) found; nothing was computed", file=sys.stderr)
+        return 2
+    print(summarise_site(site))
+    return 0
+
+
+def _add_new_site_parser(subparsers) -> None:
+    p = subparsers.add_parser("new-site", help="write a commented starting site folder")
+    p.add_argument("dir", help="the new site folder (created if needed)")
+    p.set_defaults(handler=_run_new_site)
+
+
+def _run_new_site(args) -> int:
+
+    path = new_site(args.dir)
+    print(f"wrote {path}; edit it, then run 'light-audit check {args.dir}'")
+    return 0
+
+
+def _add_run_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "run", help="audit every enclosure of a site: HTML reports, index.html, results.json/csv"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("--out", required=True, help="output folder for reports and results")
+    p.add_argument("--jobs", type=int, default=None, help="worker processes (default: CPUs)")
+    p.add_argument("--only", nargs="+", metavar="ID", help="audit only these enclosure ids")
+    p.add_argument("--audit-date", help="audit date passed to the workbooks (YYYY-MM-DD)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--scenario", metavar="NAME",
+                   help="report a saved what-if scenario (SITE/scenarios/NAME.toml) instead")
+    p.set_defaults(handler=_run_run)
+
+
+def _run_run(args) -> int:
+
+    if args.scenario:
+
+        result = run_scenario(args.site, args.scenario, args.out, jobs=args.jobs,
+                              audit_date=args.audit_date, progress=not args.quiet)
+    else:
+        result = run_batch(args.site, args.out, jobs=args.jobs, only=args.only,
+                           audit_date=args.audit_date, progress=not args.quiet)
+    for failed in result.failures:
+        print(f"could not audit {failed.id}: {failed.error}", file=sys.stderr)
+    print(result.index_path)
+    return 1 if result.failures else 0
+
+
+def _add_import_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "import", help="import a site's readings and lamp installs into its history database"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("files", nargs="*", help="readings files (default: every file in SITE/readings)")
+    p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
+    p.add_argument("--replace", action="store_true",
+                   help="a corrected file replaces the readings of its earlier import")
+    p.set_defaults(handler=_run_import)
+
+
+def _run_import(args) -> int:
+
+    for s in import_site_readings(args.site, args.files, db_path=args.db, replace=args.replace):
+        state = "already imported" if s.already_imported else f"{s.rows_added} added"
+        if s.rows_removed:
+            state += f", {s.rows_removed} of the earlier import removed"
+        print(f"{s.source_file}: {s.rows_in_input} readings, {state}, "
+              f"{s.rows_already_stored} already stored")
+    return 0
+
+
+def _add_forecast_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "forecast", help="lamp decay fits and replacement dates from a site's history"
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
+    p.add_argument("--date", help="day of the schedule, YYYY-MM-DD (default: today)")
+    p.add_argument("--target-uvi", type=float,
+                   help="one basking UV Index threshold for all lamps (default: zone ranges)")
+    p.add_argument("--csv", help="also write the schedule to this CSV file")
+    p.add_argument("--raw", action="store_true",
+                   help="fit raw meter readings (no spectral mismatch correction)")
+    p.set_defaults(handler=_run_forecast)
+
+
+def _run_forecast(args) -> int:
+    import datetime as dt
+
+
+    today = dt.date.fromisoformat(args.date) if args.date else None
+    table = site_replacement_schedule(args.site, db_path=args.db, today=today,
+                                      target_uvi=args.target_uvi, correct_meters=not args.raw)
+    print(format_schedule(table))
+    if args.csv:
+        table.to_csv(args.csv, index=False, date_format="%Y-%m-%d")
+    return 0
+
+
+def _add_sun_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "sun", help="sunrise, sunset, day length and clear-sky UV Index of a day at a place"
+    )
+    p.add_argument("--latitude", type=float, required=True, help="degrees, north positive")
+    p.add_argument("--longitude", type=float, default=0.0, help="degrees, east positive")
+    p.add_argument("--date", required=True, help="the day, YYYY-MM-DD")
+    p.add_argument("--utc-offset", type=float, default=0.0,
+                   help="local time minus UTC in hours, e.g. 1 for summer time in London")
+    p.add_argument("--ozone", type=float, default=300.0, help="total ozone column [DU]")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(handler=_run_sun)
+
+
+def _run_sun(args) -> int:
+    import datetime as dt
+    import json
+
+
+    try:
+        day = dt.date.fromisoformat(args.date)
+    except ValueError:
+        raise InputError(f"{args.date!r} is not a date", field="--date",
+                         hint="write it as YYYY-MM-DD") from None
+    summary = sun_summary(args.latitude, args.longitude, day, utc_offset_h=args.utc_offset,
+                          ozone_du=args.ozone)
+    print(json.dumps(summary, indent=2) if args.json else format_sun_summary(summary))
+    return 0
+
+
+def _add_fit_emitter_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "fit-emitter",
+        help="fit peak, FWHM and asymmetry of an emission line to a measured spectrum",
+    )
+    p.add_argument("file", help="spectrum file (CSV, TSV or TXT): wavelength [nm] and irradiance")
+    p.add_argument("--unit", help="irradiance unit if the header does not say it")
+    p.add_argument("--shape", default="lorentzian",
+                   help="lorentzian, gaussian, sigmoid_lorentzian or sigmoid_gaussian")
+    p.add_argument("--from-nm", type=float, default=250.0, help="start of the fitted range [nm]")
+    p.add_argument("--to-nm", type=float, default=420.0, help="end of the fitted range [nm]")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(handler=_run_fit_emitter)
+
+
+def _run_fit_emitter(args) -> int:
+    import dataclasses
+    import json
+
+
+    fit = fit_line_shape(read_spectrum(args.file, unit=args.unit), shape=args.shape,
+                         lo_nm=args.from_nm, hi_nm=args.to_nm)
+    if args.json:
+        print(json.dumps(dataclasses.asdict(fit), indent=2))
+    else:
+        print(f"shape              {fit.shape}")
+        print(f"peak               {fit.peak_nm:.2f} nm")
+        print(f"FWHM               {fit.fwhm_nm:.2f} nm")
+        print(f"asymmetry          {fit.asymmetry:.3f} (short-side / long-side half width)")
+        print(f"peak value         {fit.amplitude:.4g} W/m²/nm")
+        print(f"fit residual (RMS) {fit.residual_rms:.3g} W/m²/nm "
+              f"({100 * fit.relative_residual:.2f} % of the peak)")
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """Return the argument parser with every subcommand registered."""
+    parser = argparse.ArgumentParser(
+        prog="light-audit",
+        description="Audit the UV and visible lighting of reptile and amphibian enclosures.",
+    )
+    subparsers = parser.add_subparsers(dest="command", required=True)
+    for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,
+                _add_import_parser, _add_forecast_parser, _add_sun_parser,
+                _add_fit_emitter_parser):
+        add(subparsers)
+    return parser
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    print(f"warning: {message}", file=sys.stderr)
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run ``light-audit``; return the exit status (2 for bad input)."""
+    args = build_parser().parse_args(argv)
+    with warnings.catch_warnings():
+        warnings.simplefilter("always", AuditWarning)
+        warnings.showwarning = _show_warning
+        try:
+            return int(args.handler(args) or 0)
+        except (InputError, InputErrors) as exc:
+            print(f"error: {exc}", file=sys.stderr)
+            return 2
+        except AuditError as exc:
+            print(f"error: {exc}", file=sys.stderr)
+            return 1
+        except BrokenPipeError:
+            # output piped into `head` and closed early: not an error of ours
+            sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the flush at exit
+            return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""Light sources: emitter line shapes, phosphor bands, beam patterns and lamp models."""
