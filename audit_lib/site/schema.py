@@ -27,6 +27,9 @@ from audit_lib.light.units import to_si
 
 FORMAT_VERSION = 1
 ID_PATTERN = r"^[a-z0-9][a-z0-9_-]*$"
+#: Names the batch run gives its own pages and files; an enclosure id (which becomes a
+#: report's file name and a key in results.json) may not take one of them.
+RESERVED_IDS = ("site-overview", "index", "results", "reports", "scenario-sites")
 
 Id = Annotated[str, StringConstraints(pattern=ID_PATTERN, max_length=64)]
 Clock = Annotated[str, StringConstraints(pattern=r"^([01]\d|2[0-3]):[0-5]\d$")]
