@@ -8,11 +8,13 @@ naming the file, line and field; never a traceback.
 from __future__ import annotations
 
 import argparse
+import functools
 import os
 import sys
 import warnings
 
 from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
+from audit_lib.history.sync import sync_site_history
 from audit_lib.light.metrics import format_metrics_table, spectrum_metrics
 from audit_lib.light.spectra import read_spectrum
 from audit_lib.light.sun import format_sun_summary, sun_summary
@@ -22,8 +24,17 @@ from audit_lib.pipeline.forecast import (
     site_replacement_schedule,
 )
 from audit_lib.run.batch import run_batch, run_scenario
+from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site, new_site, summarise_site
 from audit_lib.sources.emitters import fit_line_shape
+
+
+def _date_option(text: str):
+    """Parse a date option before any work (argparse then exits 2 with the message)."""
+    try:
+        return parse_date(text)
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
 
 
 def _add_spectrum_parser(subparsers) -> None:
@@ -64,13 +75,17 @@ def _add_check_parser(subparsers) -> None:
 def _run_check(args) -> int:
 
     try:
-        site = load_site(args.site)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", AuditWarning)
+            site = load_site(args.site)
     except InputErrors as exc:
         for problem in exc.problems:
             print(problem, file=sys.stderr)
         print(f"{len(exc.problems)} problem(s) found; nothing was computed", file=sys.stderr)
         return 2
-    print(summarise_site(site))
+    for warning in caught:
+        print(f"warning: {warning.message}", file=sys.stderr)
+    print(summarise_site(site) + (f"; {len(caught)} warning(s) to attend to" if caught else ""))
     return 0
 
 
@@ -95,7 +110,8 @@ def _add_run_parser(subparsers) -> None:
     p.add_argument("--out", required=True, help="output folder for reports and results")
     p.add_argument("--jobs", type=int, default=None, help="worker processes (default: CPUs)")
     p.add_argument("--only", nargs="+", metavar="ID", help="audit only these enclosure ids")
-    p.add_argument("--audit-date", help="audit date passed to the workbooks (YYYY-MM-DD)")
+    p.add_argument("--audit-date", type=_date_option,
+                   help="audit date passed to the workbooks (YYYY-MM-DD)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--scenario", metavar="NAME",
                    help="report a saved what-if scenario (SITE/scenarios/NAME.toml) instead")
@@ -146,7 +162,8 @@ def _add_forecast_parser(subparsers) -> None:
     )
     p.add_argument("site", help="the site folder (holding site.toml)")
     p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
-    p.add_argument("--date", help="day of the schedule, YYYY-MM-DD (default: today)")
+    p.add_argument("--date", type=_date_option,
+                   help="day of the schedule, YYYY-MM-DD (default: today)")
     p.add_argument("--target-uvi", type=float,
                    help="one basking UV Index threshold for all lamps (default: zone ranges)")
     p.add_argument("--csv", help="also write the schedule to this CSV file")
@@ -156,11 +173,8 @@ def _add_forecast_parser(subparsers) -> None:
 
 
 def _run_forecast(args) -> int:
-    import datetime as dt
-
-
-    today = dt.date.fromisoformat(args.date) if args.date else None
-    table = site_replacement_schedule(args.site, db_path=args.db, today=today,
+    sync_site_history(load_site(args.site, today=args.date), args.db)  # readings folder -> DB
+    table = site_replacement_schedule(args.site, db_path=args.db, today=args.date,
                                       target_uvi=args.target_uvi, correct_meters=not args.raw)
     print(format_schedule(table))
     if args.csv:
@@ -174,7 +188,7 @@ def _add_sun_parser(subparsers) -> None:
     )
     p.add_argument("--latitude", type=float, required=True, help="degrees, north positive")
     p.add_argument("--longitude", type=float, default=0.0, help="degrees, east positive")
-    p.add_argument("--date", required=True, help="the day, YYYY-MM-DD")
+    p.add_argument("--date", type=_date_option, required=True, help="the day, YYYY-MM-DD")
     p.add_argument("--utc-offset", type=float, default=0.0,
                    help="local time minus UTC in hours, e.g. 1 for summer time in London")
     p.add_argument("--ozone", type=float, default=300.0, help="total ozone column [DU]")
@@ -183,16 +197,10 @@ def _add_sun_parser(subparsers) -> None:
 
 
 def _run_sun(args) -> int:
-    import datetime as dt
     import json
 
 
-    try:
-        day = dt.date.fromisoformat(args.date)
-    except ValueError:
-        raise InputError(f"{args.date!r} is not a date", field="--date",
-                         hint="write it as YYYY-MM-DD") from None
-    summary = sun_summary(args.latitude, args.longitude, day, utc_offset_h=args.utc_offset,
+    summary = sun_summary(args.latitude, args.longitude, args.date, utc_offset_h=args.utc_offset,
                           ozone_du=args.ozone)
     print(json.dumps(summary, indent=2) if args.json else format_sun_summary(summary))
     return 0
@@ -247,16 +255,23 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    print(f"warning: {message}", file=sys.stderr)
+def _show_warning(message, category, filename, lineno, file=None, line=None, *,
+                  shown: set) -> None:
+    text = f"warning: {message}"
+    if text not in shown:  # a site loaded twice (e.g. sync, then forecast) warns once
+        shown.add(text)
+        print(text, file=sys.stderr)
 
 
 def main(argv: list[str] | None = None) -> int:
     """Run ``light-audit``; return the exit status (2 for bad input)."""
-    args = build_parser().parse_args(argv)
+    try:
+        args = build_parser().parse_args(argv)
+    except SystemExit as exc:  # usage errors (2, bad dates included) and --help (0)
+        return int(exc.code or 0)
     with warnings.catch_warnings():
         warnings.simplefilter("always", AuditWarning)
-        warnings.showwarning = _show_warning
+        warnings.showwarning = functools.partial(_show_warning, shown=set())
         try:
             return int(args.handler(args) or 0)
         except (InputError, InputErrors) as exc:

@@ -51,7 +51,12 @@ from audit_lib.site.schema import (
     Species,
     TubeModel,
 )
-from audit_lib.site.template import STARTER_READINGS_CSV, STARTER_SITE_TOML
+from audit_lib.site.template import (
+    EXAMPLE_READINGS,
+    STARTER_READINGS_CSV,
+    STARTER_SITE_TOML,
+    placeholder_problems,
+)
 
 SITE_FILE = "site.toml"
 
@@ -174,7 +179,9 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     problems += readings_problems(readings, checked, root, today, dropped)
     if problems or records is None:
         return None, problems
-    for text in calibration_warnings(readings, records):
+    notes = calibration_warnings(readings, records)
+    notes += [str(p) for p in placeholder_problems(records, root, toml_path, lines)]
+    for text in notes:
         warnings.warn(text, SiteWarning, stacklevel=3)
     return Site(root=root, records=records, readings=readings), []
 
@@ -274,7 +281,7 @@ def new_site(path: str | PathLike) -> Path:
                          hint="choose an empty or new folder")
     (root / "readings").mkdir(parents=True, exist_ok=True)
     (root / "spectra").mkdir(exist_ok=True)
-    (root / "readings" / "first-audit.csv").write_text(STARTER_READINGS_CSV, encoding="utf-8")
+    (root / "readings" / EXAMPLE_READINGS).write_text(STARTER_READINGS_CSV, encoding="utf-8")
     (root / SITE_FILE).write_text(STARTER_SITE_TOML, encoding="utf-8")
     return root / SITE_FILE
 
