@@ -9,8 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.run.cli import main
 from audit_lib.errors import InputErrors
+from audit_lib.run.cli import main
 from audit_lib.site.folder import check_site, load_site, new_site
 from audit_lib.site.messages import locate_keys
 
