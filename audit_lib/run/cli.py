@@ -15,7 +15,7 @@ import warnings
 from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
 from audit_lib.light.metrics import format_metrics_table, spectrum_metrics
 from audit_lib.light.spectra import read_spectrum
-from audit_lib.light.sun import format_sun_summary, sun_summary
+from audit_lib.light.sun import sun_summary
 from audit_lib.pipeline.forecast import (
     format_schedule,
     import_site_readings,
@@ -175,8 +175,12 @@ def _add_sun_parser(subparsers) -> None:
     p.add_argument("--latitude", type=float, required=True, help="degrees, north positive")
     p.add_argument("--longitude", type=float, default=0.0, help="degrees, east positive")
     p.add_argument("--date", required=True, help="the day, YYYY-MM-DD")
-    p.add_argument("--utc-offset", type=float, default=0.0,
-                   help="local time minus UTC in hours, e.g. 1 for summer time in London")
+    p.add_argument("--utc-offset", type=float, default=None,
+                   help="local time minus UTC in hours, e.g. 1 for summer time in London "
+                   "(default: times in UTC)")
+    p.add_argument("--time-zone", default=None, metavar="NAME",
+                   help="IANA time zone, e.g. Europe/London: local times with summer time "
+                   "(instead of --utc-offset)")
     p.add_argument("--ozone", type=float, default=300.0, help="total ozone column [DU]")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(handler=_run_sun)
@@ -193,9 +197,44 @@ def _run_sun(args) -> int:
         raise InputError(f"{args.date!r} is not a date", field="--date",
                          hint="write it as YYYY-MM-DD") from None
     summary = sun_summary(args.latitude, args.longitude, day, utc_offset_h=args.utc_offset,
-                          ozone_du=args.ozone)
+                          time_zone=args.time_zone, ozone_du=args.ozone)
     print(json.dumps(summary, indent=2) if args.json else format_sun_summary(summary))
     return 0
+
+
+def _clock_with_zone(summary: dict, key: str) -> str:
+    """``"06:12 Europe/London (UTC+01:00)"``, ``"06:12 UTC"`` or the polar-day text."""
+    if not summary[key]:
+        return "none (polar day or night)"
+    stamp = summary[f"{key}_iso"]
+    offset = "UTC" + stamp[-6:] if stamp[-6] in "+-" else "UTC"
+    zone = summary["time_zone"]
+    if zone.startswith("UTC"):
+        return f"{summary[key]} {zone}"
+    return f"{summary[key]} {zone} ({offset})"
+
+
+def format_sun_summary(summary: dict) -> str:
+    """Plain-text table of :func:`audit_lib.light.sun.sun_summary` for the command line."""
+    minutes = int(round(summary["day_length_h"] * 60))
+    rows = [
+        ("date", summary["date"]),
+        ("place", f"{summary['latitude_deg']:g} deg N, {summary['longitude_deg']:g} deg E"),
+        ("sunrise", _clock_with_zone(summary, "sunrise")),
+        ("solar noon", _clock_with_zone(summary, "solar_noon")),
+        ("sunset", _clock_with_zone(summary, "sunset")),
+        ("day length", f"{minutes // 60} h {minutes % 60:02d} min"),
+        ("clear-sky UV Index at noon",
+         f"{summary['peak_uvi']:.1f} (ozone {summary['ozone_du']:g} DU)"),
+        ("clear-sky daily dose", f"{summary['daily_sed']:.1f} SED"),
+    ]
+    width = max(len(k) for k, _ in rows)
+    lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
+    lines.append(
+        "Sources: solar position from the Meeus/NOAA solar equations (within a minute of "
+        "NREL SPA); Madronich 2007 clear-sky UV Index (no cloud, aerosol, altitude or snow)."
+    )
+    return "\n".join(lines)
 
 
 def _add_fit_emitter_parser(subparsers) -> None:
