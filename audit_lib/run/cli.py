@@ -23,6 +23,7 @@ from audit_lib.pipeline.forecast import (
 )
 from audit_lib.run.batch import run_batch, run_scenario
 from audit_lib.site.folder import load_site, new_site, summarise_site
+from audit_lib.site.schema import parse_quantity
 from audit_lib.sources.emitters import fit_line_shape
 
 
@@ -36,20 +37,49 @@ def _add_spectrum_parser(subparsers) -> None:
         "--unit",
         help="unit of the irradiance column if the header does not say it, e.g. 'uW/cm^2/nm'",
     )
+    p.add_argument("--distance", metavar="LENGTH",
+                   help="lamp-to-sensor distance of the measurement, e.g. '30 cm' or 0.3 (m): "
+                   "needed for the indicative IEC 62471 risk group, stated at 200 mm")
     p.add_argument("--json", action="store_true", help="print one JSON object (SI units)")
     p.set_defaults(handler=_run_spectrum)
+
+
+def _distance_m(text: str | None) -> float | None:
+    """A length from the command line: a number in metres or '<number> <unit>'."""
+    if text is None:
+        return None
+    try:
+        return float(text)
+    except ValueError:
+        pass
+    try:
+        return parse_quantity(text, "length")
+    except InputError as exc:
+        raise InputError(exc.message, field="--distance", hint="e.g. '30 cm' or 0.3") from None
+
+
+def _risk_group_note(result: dict) -> str:
+    """One line saying on what the risk group rests, or why there is none."""
+    if result["risk_group"] is None:
+        return ("note: no risk group: IEC 62471 states it at 200 mm, and the measurement "
+                "distance is unknown; give it with --distance")
+    return (f"note: risk group at 200 mm (indicative; IEC 62471 limits from memory): the "
+            f"spectrum measured at {result['measurement_distance_m']:g} m is moved to 200 mm "
+            "by the inverse-square law, an assumption that overstates extended lamps "
+            f"(E_S {result['actinic_w_m2_at_distance']:.3g} W/m², E_UVA "
+            f"{result['uva_w_m2_at_distance']:.3g} W/m² at 200 mm)")
 
 
 def _run_spectrum(args) -> int:
     import json
 
-
     spectrum = read_spectrum(args.file, unit=args.unit)
-    result = spectrum_metrics(spectrum)
+    result = spectrum_metrics(spectrum, distance_m=_distance_m(args.distance))
     if args.json:
         print(json.dumps(result, indent=2, allow_nan=False))
     else:
         print(format_metrics_table(result, title=spectrum.name))
+        print(_risk_group_note(result))
     return 0
 
 
@@ -244,8 +274,8 @@ def _add_fit_emitter_parser(subparsers) -> None:
     )
     p.add_argument("file", help="spectrum file (CSV, TSV or TXT): wavelength [nm] and irradiance")
     p.add_argument("--unit", help="irradiance unit if the header does not say it")
-    p.add_argument("--shape", default="lorentzian",
-                   help="lorentzian, gaussian, sigmoid_lorentzian or sigmoid_gaussian")
+    p.add_argument("--shape", default="gaussian",
+                   help="gaussian (default), lorentzian, sigmoid_gaussian or sigmoid_lorentzian")
     p.add_argument("--from-nm", type=float, default=250.0, help="start of the fitted range [nm]")
     p.add_argument("--to-nm", type=float, default=420.0, help="end of the fitted range [nm]")
     p.add_argument("--json", action="store_true", help="print one JSON object")
