@@ -9,6 +9,8 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 
+from audit_lib.errors import InputError
+from audit_lib.light.spectra import Spectrum
 from audit_lib.sources.emitters import (
     LINE_SHAPES,
     AngularPattern,
@@ -25,8 +27,6 @@ from audit_lib.sources.emitters import (
     relative_spectrum,
     weigh_emitter,
 )
-from audit_lib.errors import InputError
-from audit_lib.light.spectra import Spectrum
 
 
 def _half_max_points(peak, fwhm, asym, shape):

@@ -8,19 +8,8 @@ import warnings
 import numpy as np
 import pytest
 
-from audit_lib.sources.emitters import EmitterType, lambertian_order, line_shape, pattern_solid_angle
 from audit_lib.errors import InputError
-from audit_lib.sources.lamps import (
-    LedArray,
-    MeasuredLamp,
-    OutsideMeasuredRangeWarning,
-    PointLamp,
-    TubeLamp,
-    fit_distance_law,
-    lamp_sources,
-    lamp_spectrum,
-    line_of_emitters,
-)
+from audit_lib.light.spectra import Spectrum
 from audit_lib.scene.maps import (
     Enclosure,
     PlacedLamp,
@@ -33,7 +22,23 @@ from audit_lib.scene.maps import (
     statistics_table,
     surface_statistics,
 )
-from audit_lib.light.spectra import Spectrum
+from audit_lib.sources.emitters import (
+    EmitterType,
+    lambertian_order,
+    line_shape,
+    pattern_solid_angle,
+)
+from audit_lib.sources.lamps import (
+    LedArray,
+    MeasuredLamp,
+    OutsideMeasuredRangeWarning,
+    PointLamp,
+    TubeLamp,
+    fit_distance_law,
+    lamp_sources,
+    lamp_spectrum,
+    line_of_emitters,
+)
 
 FLAT = Spectrum(np.arange(250.0, 801.0, 1.0), np.ones(551), name="flat")
 
