@@ -63,8 +63,8 @@ id = "uvb-tube-60cm"
 kind = "tube"                     # led_array, tube, point or from_readings
 name = "UVB fluorescent tube 60 cm"
 length = "60 cm"                  # same as length_m = 0.6
-reflector_factor = 1.6            # gain of the reflector behind the tube [-]
-reference = { distance = "30 cm", uvi = 2.0 }   # on-axis output when new
+reference = { distance = "30 cm", uvi = 2.0 }   # below the middle, in its fitting, when new
+# general_lighting = true         # only for general lighting lamps: risk group at 500 lx
 # spectrum = "spectra/uvb-tube-60cm.csv"        # a measured spectrum, if you have one
 
 [[lamp_models.bands]]             # modelled spectrum: phosphor emission bands
