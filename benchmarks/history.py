@@ -14,7 +14,6 @@ import numpy as np
 import pandas as pd
 
 from audit_lib.history import decay
-
 from audit_lib.history import store as history
 
 ENCLOSURES, LAMPS, AUDITS, PER_LAMP = 300, 2, 3, 10

@@ -12,10 +12,10 @@ import statistics
 import time
 import tracemalloc
 
-from audit_lib.sources.emitters import EmitterType, PhosphorBand
 from audit_lib.scene.failures import emitter_contributions, monte_carlo_coverage
-from audit_lib.sources.lamps import LedArray, line_of_emitters
 from audit_lib.scene.maps import Enclosure, PlacedLamp, Screen, compute_maps
+from audit_lib.sources.emitters import EmitterType, PhosphorBand
+from audit_lib.sources.lamps import LedArray, line_of_emitters
 
 
 def build_scene() -> Enclosure:

@@ -17,9 +17,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from audit_lib.errors import InputError
 from audit_lib.pipeline.assemble import bands_spectrum, build_scene, failed_labels
 from audit_lib.pipeline.audit import audit_enclosure, choose_audit_date, open_enclosure
-from audit_lib.errors import InputError
 from audit_lib.scene.maps import compute_maps, evaluate_points
 from audit_lib.site.folder import load_site, new_site
 
@@ -192,7 +192,8 @@ def test_no_readings_on_the_audit_day_leaves_the_model_as_rated(small):
 
 def test_failure_labels_of_a_whole_lamp_and_of_emitters():
     """A failure label is the lamp id (a tube or point lamp out) or '<lamp>/<emitter>' (one
-    LED out); both belong to that lamp and to no other (label convention of audit_lib.scene.failures)."""
+    LED out); both belong to that lamp and to no other
+    (label convention of audit_lib.scene.failures)."""
     from audit_lib.pipeline.steps import failed_of
 
     failed = ("tube", "bar/3", "bar-2/1")

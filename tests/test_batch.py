@@ -24,6 +24,8 @@ from pathlib import Path
 import nbformat
 import pytest
 
+from audit_lib.errors import InputError
+from audit_lib.report.index_page import render_index
 from audit_lib.run.batch import (
     CSV_COLUMNS,
     BatchResult,
@@ -33,9 +35,7 @@ from audit_lib.run.batch import (
     run_batch,
     safe_stem,
 )
-from audit_lib.errors import InputError
 from audit_lib.run.notebooks import write_atomic
-from audit_lib.report.index_page import render_index
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "sample_sites" / "kestrel-moor-wildlife-park"

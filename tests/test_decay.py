@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib.history import decay
 from audit_lib.errors import InputError
+from audit_lib.history import decay
 
 HOURS = np.array([0.0, 1000, 2000, 3000, 4500, 6000, 8000])
 

@@ -9,8 +9,8 @@ from audit_lib.day.dose import (
     integrate_time_budget,
     monthly_table,
 )
-from audit_lib.errors import InputError
 from audit_lib.day.photoperiod import NaturalDaySchedule, OnOffSchedule, daily_profile
+from audit_lib.errors import InputError
 from audit_lib.light.sun import clear_sky_daily_dose_sed, day_length_h
 
 

@@ -8,7 +8,6 @@ import numpy as np
 import pytest
 from scipy import constants, stats
 
-from audit_lib.sources.emitters import EmitterType
 from audit_lib.errors import InputError
 from audit_lib.scene.failures import (
     arrhenius_factor,
@@ -20,8 +19,9 @@ from audit_lib.scene.failures import (
     monte_carlo_failures,
     worst_units,
 )
-from audit_lib.sources.lamps import LedArray, line_of_emitters
 from audit_lib.scene.maps import Enclosure, PlacedLamp, Surface, compute_maps
+from audit_lib.sources.emitters import EmitterType
+from audit_lib.sources.lamps import LedArray, line_of_emitters
 
 
 def _scene():

@@ -6,11 +6,9 @@ from types import SimpleNamespace
 import pandas as pd
 import pytest
 
-from audit_lib.run import cli
-
-from audit_lib.pipeline import forecast
-
 from audit_lib.history import store as history
+from audit_lib.pipeline import forecast
+from audit_lib.run import cli
 from audit_lib.site.folder import new_site
 
 K_PER_H = 5e-5  # synthetic exponential decay rate [h-1]

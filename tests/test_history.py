@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib.history import store as history
 from audit_lib.errors import AuditError, InputError
+from audit_lib.history import store as history
 
 
 def make_readings(rows, source_file="audit-2024.csv"):

@@ -7,12 +7,12 @@ import math
 import numpy as np
 import pytest
 
-from audit_lib.sources.emitters import line_shape
 from audit_lib.errors import InputError
-from audit_lib.scene.inverse import height_for_target
-from audit_lib.sources.lamps import PointLamp, lamp_sources
-from audit_lib.scene.maps import Enclosure, PlacedLamp, Surface
 from audit_lib.light.spectra import Spectrum
+from audit_lib.scene.inverse import height_for_target
+from audit_lib.scene.maps import Enclosure, PlacedLamp, Surface
+from audit_lib.sources.emitters import line_shape
+from audit_lib.sources.lamps import PointLamp, lamp_sources
 
 
 def _scene():
@@ -55,8 +55,8 @@ def test_height_says_when_no_height_can():
 def test_emitter_count_matches_superposition():
     """Far from a short row, N identical emitters give about N times one emitter's UVI
     (superposition); the smallest count reaching the range is returned."""
-    from audit_lib.sources.emitters import EmitterType
     from audit_lib.scene.inverse import emitter_count_for_target
+    from audit_lib.sources.emitters import EmitterType
     from audit_lib.sources.lamps import LedArray, line_of_emitters
 
     uvb = EmitterType("uvb", 305, 12, 0.002, beam_angle_deg=120)

@@ -4,9 +4,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from audit_lib.errors import InputError
 from audit_lib.light import meters
 from audit_lib.light.action_spectra import erythema_cie1998
-from audit_lib.errors import InputError
 from audit_lib.light.spectra import Spectrum
 
 WL = np.arange(250.0, 420.5, 0.5)

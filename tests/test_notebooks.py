@@ -15,6 +15,7 @@ import nbformat
 import pytest
 from nbformat.v4 import new_code_cell, new_markdown_cell, new_notebook, new_output
 
+from audit_lib.report.cautions import CAUTIONS
 from audit_lib.run.notebooks import (
     HIDDEN_TAGS,
     REPORT_DATA_MIMETYPE,
@@ -24,7 +25,6 @@ from audit_lib.run.notebooks import (
     make_exporter,
     read_report_data,
 )
-from audit_lib.report.cautions import CAUTIONS
 
 HOSTILE = '<script>alert("x")</script> & co'
 PNG_1PX = base64.b64decode(

@@ -3,7 +3,6 @@ import datetime as dt
 import numpy as np
 import pytest
 
-from audit_lib.errors import InputError
 from audit_lib.day.photoperiod import (
     LevelSchedule,
     NaturalDaySchedule,
@@ -15,6 +14,7 @@ from audit_lib.day.photoperiod import (
     lit_hours,
     parse_clock,
 )
+from audit_lib.errors import InputError
 from audit_lib.light.sun import day_length_h
 
 

@@ -8,7 +8,8 @@ standard erythema dose (CIE S 007/E-1998: 1 SED = 100 J m-2); the ICNIRP 2004 ac
 open-area transmission of a square wire mesh, (1 - d/p)^2 (geometry; Burger, Gehrmann &
 Ferguson 2007, Zoo Biology 26:417); superposition of incoherent sources (irradiances add).
 Consistency checks compare the planner with the library's orchestrator
-(:func:`audit_lib.pipeline.audit.audit_enclosure`), whose parts are checked against published sources
+(:func:`audit_lib.pipeline.audit.audit_enclosure`), whose parts are checked against
+published sources
 in their own tests.
 """
 

@@ -8,14 +8,14 @@ matplotlib.use("Agg")
 
 from audit_lib.day.dose import monthly_table, uvi_series  # noqa: E402
 from audit_lib.day.photoperiod import OnOffSchedule, daily_profile  # noqa: E402
+from audit_lib.judge.targets import read_zone_table  # noqa: E402
+from audit_lib.light.sun import clear_sky_uvi_day  # noqa: E402
 from audit_lib.report.daily import (  # noqa: E402
     plot_daily_uvi,
     plot_monthly_doses,
     sun_scale_for_zone,
 )
 from audit_lib.report.style import PALETTE  # noqa: E402
-from audit_lib.light.sun import clear_sky_uvi_day  # noqa: E402
-from audit_lib.judge.targets import read_zone_table  # noqa: E402
 
 
 def test_daily_figure_has_bands_sun_and_curves():

@@ -9,11 +9,11 @@ matplotlib.use("Agg")
 import numpy as np
 import pytest
 
-from audit_lib.sources.emitters import EmitterType
-from audit_lib.scene.failures import monte_carlo_failures
-from audit_lib.sources.lamps import LedArray, line_of_emitters
 from audit_lib.report.maps import lamp_outline, plot_coverage_distribution, plot_surface_map
+from audit_lib.scene.failures import monte_carlo_failures
 from audit_lib.scene.maps import Enclosure, PlacedLamp, Surface, compute_maps
+from audit_lib.sources.emitters import EmitterType
+from audit_lib.sources.lamps import LedArray, line_of_emitters
 
 
 def _scene():

@@ -1,7 +1,7 @@
-from audit_lib.report.style import STATE_COLOURS
-from audit_lib.report.verdicts import style_verdict_table, verdict_frame, verdict_html
 from audit_lib.judge.targets import read_zone_table, species_targets
 from audit_lib.judge.verdicts import assess_enclosure
+from audit_lib.report.style import STATE_COLOURS
+from audit_lib.report.verdicts import style_verdict_table, verdict_frame, verdict_html
 
 
 def _verdict():
