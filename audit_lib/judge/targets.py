@@ -6,9 +6,10 @@ are FROM MEMORY until checked against the paper, and every check built on them s
 species table (``data/species_demo.csv``, demo data to be checked) maps species to a zone and a
 way of providing UV; sites add or override species.
 
-Each check is a :class:`Check` record (figure, unit, target range, state, source, one-sentence
-reason). :mod:`audit_lib.judge.verdicts` bundles the checks of one enclosure and species into a
-verdict with computed actions.
+Each check is a :class:`Check` record (stable id, figure, unit, target range, state, source,
+one-sentence reason). Code finds a check by its id (:data:`CHECK_IDS`), never by its wording.
+:mod:`audit_lib.judge.verdicts` bundles the checks of one enclosure and species into a verdict
+with computed actions.
 
 Boundaries are inclusive: a figure exactly on a limit is within range.
 """
@@ -42,6 +43,17 @@ LIGHT_HOURS_RANGE = (10.0, 14.0)  # hours of light a day [h]
 KEEPER_TIME_S = 1800.0  # keeper's time a day at the working distance [s]
 SHORT_UVB_TOLERANCE = 0.001  # allowed 280-290 nm share of UVB above sunlight's [-]
 COMMON_PRACTICE = "common practice (project default, set per site)"
+
+#: Stable ids of the checks, in the order a verdict lists them. They are part of the
+#: ``results.json`` contract (docs/batch-reports.md); the English names may change, these not.
+BASKING_UVI_MAX = "basking_uvi_max"  # highest UV Index on the basking surfaces
+ANIMAL_UVI_MEAN = "animal_uvi_mean"  # time-budget mean UV Index of the animal while active
+REFUGE_FLOOR_SHARE = "refuge_floor_share"  # floor share at or below the refuge UV Index
+LIGHT_HOURS = "light_hours"  # hours with any lamp on
+SHORT_UVB_SHARE = "short_uvb_share"  # 280-290 nm share of the lamps' UVB
+KEEPER_EXPOSURE_TIME = "keeper_exposure_time"  # keeper's permissible daily time [min]
+CHECK_IDS = (BASKING_UVI_MAX, ANIMAL_UVI_MEAN, REFUGE_FLOOR_SHARE, LIGHT_HOURS, SHORT_UVB_SHARE,
+             KEEPER_EXPOSURE_TIME)
 
 
 @dataclass(frozen=True)
@@ -127,6 +139,8 @@ class Check:
         One sentence saying why the state is what it is.
     status : str
         How far the target values are checked ("from memory", "common practice", ...).
+    id : str
+        Stable id, one of :data:`CHECK_IDS` (what code and results files match on).
     """
 
     name: str
@@ -138,6 +152,7 @@ class Check:
     source: str
     reason: str
     status: str = ""
+    id: str = ""
 
 
 # --- tables -------------------------------------------------------------------------------
@@ -299,7 +314,8 @@ def _fmt(x: float, digits: int = 2) -> str:
     return f"{x:.{digits}f}".rstrip("0").rstrip(".") if digits else f"{x:.0f}"
 
 
-def _range_check(name, value, unit, low, high, source, status, what, digits=2) -> Check:
+def _range_check(check_id, name, value, unit, low, high, source, status, what,
+                 digits=2) -> Check:
     state = classify(value, low, high)
     target = (
         f"{_fmt(low, digits)}-{_fmt(high, digits)}"
@@ -323,6 +339,7 @@ def _range_check(name, value, unit, low, high, source, status, what, digits=2) -
         source,
         reason,
         status,
+        check_id,
     )
 
 
@@ -337,6 +354,7 @@ def check_basking_max(max_uvi, zone: Zone) -> Check:
         The species' zone.
     """
     return _range_check(
+        BASKING_UVI_MAX,
         "basking UV Index maximum",
         max_uvi,
         "UVI",
@@ -359,6 +377,7 @@ def check_mean_exposure(mean_uvi, zone: Zone) -> Check:
         The species' zone (Ferguson et al. 2010 mean voluntary exposure).
     """
     return _range_check(
+        ANIMAL_UVI_MEAN,
         "mean UV Index of the animal",
         mean_uvi,
         "UVI",
@@ -385,6 +404,7 @@ def check_refuge(
         UV Index below which a place counts as refuge (common practice default) [-].
     """
     c = _range_check(
+        REFUGE_FLOOR_SHARE,
         "low-UV refuge share of floor",
         refuge_share,
         "-",
@@ -419,6 +439,7 @@ def check_light_hours(hours, hours_range=LIGHT_HOURS_RANGE, source: str = COMMON
     """
     status = "common practice" if source == COMMON_PRACTICE else "computed"
     return _range_check(
+        LIGHT_HOURS,
         "hours of light",
         hours,
         "h",
@@ -457,6 +478,7 @@ def check_short_wave_share(
     """
     high = float(sun_fraction) + float(tolerance)
     c = _range_check(
+        SHORT_UVB_SHARE,
         "short-wave UVB share (280-290 nm)",
         short_uvb_fraction,
         "-",
@@ -494,6 +516,7 @@ def check_keeper_limit(
     value = None if limit_s is None else float(limit_s) / 60.0
     where = f" at {_fmt(working_distance_m * 100, 0)} cm" if working_distance_m else ""
     c = _range_check(
+        KEEPER_EXPOSURE_TIME,
         "keeper exposure limit",
         value,
         "min",

@@ -1,7 +1,9 @@
 """The batch audit run: one report per enclosure, a site overview, an index and results files.
 
 ``run_batch`` validates the site first (nothing runs on an invalid site), then executes the
-enclosure workbook once per enclosure with papermill in a pool of worker processes. Each
+enclosure workbook once per enclosure with papermill in a pool of worker processes, writes
+``results.json``, and then runs the site overview workbook on that file: the overview reads
+the enclosures' results and audits nothing again, so its figures are the reports'. Each
 worker imports the heavy libraries once, keeps one warm kernel and converts in-process with a
 cached exporter (:mod:`audit_lib.run.notebooks`). Every file is written atomically; a failed
 enclosure is listed with its error and does not stop the others; a rerun completes the set.
@@ -50,9 +52,15 @@ OVERVIEW_WORKBOOK = WORKBOOKS_DIR / "site_overview.ipynb"
 OVERVIEW_ID = "site-overview"
 REPORTS_DIR = "reports"
 #: Columns of ``results.csv`` (one row per check; one row per enclosure that failed).
-CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "value", "unit",
+CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "check_id", "value", "unit",
                "target_low", "target_high", "state", "reason", "error")
-_CHECK_KEYS = ("name", "value", "unit", "target_low", "target_high", "state", "reason")
+#: Keys of a check in ``results.json`` (docs/batch-reports.md).
+CHECK_KEYS = ("check_id", "name", "species", "value", "unit", "target_low", "target_high",
+              "state", "reason")
+#: Keys of an enclosure entry beyond the outcome's own (from the workbook's results), with
+#: their value when the workbook gave none.
+RESULT_KEYS = {"audit_date": None, "zone": None, "reason": None, "recommendation": None,
+               "actions": [], "lamps": []}
 #: Code a worker's kernel runs once, while the main process validates the site: the heavy
 #: imports, one small figure, one spectrum's metrics and the site itself, so fonts, colour
 #: tables, unit tables and cached weights are loaded before the first workbook; then the
@@ -114,7 +122,10 @@ class EnclosureOutcome:
     report, notebook : str or None
         HTML report and executed workbook, relative to the output folder.
     checks : list of dict
-        Every check: name, value, unit, target_low, target_high, state, reason.
+        Every check (:data:`CHECK_KEYS`).
+    results : dict
+        The rest of the workbook's results (:data:`RESULT_KEYS`: audit date, zone, reason,
+        recommendation, actions, lamps).
     error : str or None
         Why the enclosure could not be audited.
     seconds : float
@@ -127,6 +138,7 @@ class EnclosureOutcome:
     report: str | None = None
     notebook: str | None = None
     checks: list = field(default_factory=list)
+    results: dict = field(default_factory=dict)
     error: str | None = None
     seconds: float = 0.0
 
@@ -236,6 +248,7 @@ def _run_task(task: dict) -> dict:
         os.replace(tmp_nb, nb_path)
         results = data["results"]
         result.update(verdict=results.get("verdict"), checks=results.get("checks", []),
+                      results={k: results[k] for k in RESULT_KEYS if k in results},
                       report=f"{REPORTS_DIR}/{html_path.name}",
                       notebook=f"{REPORTS_DIR}/{nb_path.name}")
     except PapermillExecutionError as exc:
@@ -255,7 +268,7 @@ def _run_task(task: dict) -> dict:
 
 
 def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str | None,
-           workbook: Path, overview: Path | None) -> list[dict]:
+           workbook: Path) -> list[dict]:
     tasks = []
     for enclosure_id in ids:
         params = {"site_dir": str(site_dir), "enclosure_id": enclosure_id}
@@ -264,15 +277,17 @@ def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str 
         tasks.append({"id": enclosure_id, "name": site.enclosure(enclosure_id).name,
                       "stem": safe_stem(enclosure_id), "workbook": str(workbook),
                       "parameters": params, "out_dir": str(out_dir)})
-    if overview is not None:
-        params = {"site_dir": str(site_dir)}
-        if audit_date:
-            params["audit_date"] = audit_date
-        # the longest workbook goes first so it does not run alone at the end
-        tasks.insert(0, {"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
-                         "workbook": str(overview), "parameters": params,
-                         "out_dir": str(out_dir), "overview": True})
     return tasks
+
+
+def _overview_task(site_dir: Path, out_dir: Path, audit_date: str | None,
+                   workbook: Path) -> dict:
+    """The overview workbook on the run's ``results.json`` (written before it runs)."""
+    params = {"site_dir": str(site_dir), "results_json": str(out_dir / "results.json")}
+    if audit_date:
+        params["audit_date"] = audit_date
+    return {"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
+            "workbook": str(workbook), "parameters": params, "out_dir": str(out_dir)}
 
 
 def _select(site, only) -> list[str]:
@@ -300,7 +315,9 @@ def _previous(out_dir: Path, site_name: str) -> dict[str, EnclosureOutcome]:
         report = item.get("report")
         if item.get("verdict") and report and (out_dir / report).is_file():
             known = {k: item.get(k) for k in ("id", "name", "verdict", "report", "notebook")}
-            kept[item["id"]] = EnclosureOutcome(**known, checks=item.get("checks", []))
+            kept[item["id"]] = EnclosureOutcome(**known, checks=item.get("checks", []),
+                                                results={k: item[k] for k in RESULT_KEYS
+                                                         if k in item})
     return kept
 
 
@@ -313,15 +330,18 @@ def _clean(value):
 def results_document(result: BatchResult) -> dict:
     """Return the ``results.json`` content of a batch run (JSON-able, no NaN)."""
     def one(o: EnclosureOutcome) -> dict:
-        checks = [{k: _clean(c.get(k)) for k in _CHECK_KEYS} for c in o.checks]
-        return {"id": o.id, "name": o.name, "verdict": o.verdict, "report": o.report,
-                "notebook": o.notebook, "error": o.error, "checks": checks}
+        checks = [{k: _clean(c.get(k)) for k in CHECK_KEYS} for c in o.checks]
+        entry = {"id": o.id, "name": o.name, "verdict": o.verdict, "report": o.report,
+                 "notebook": o.notebook, "error": o.error, "checks": checks}
+        entry.update({k: o.results.get(k, default) for k, default in RESULT_KEYS.items()})
+        return entry
 
     doc = {"site": result.site_name, "library_version": __version__,
            "generated": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
            "enclosures": [one(o) for o in result.outcomes]}
     if result.overview is not None:
-        doc["overview"] = {k: v for k, v in one(result.overview).items() if k != "checks"}
+        doc["overview"] = {k: v for k, v in one(result.overview).items()
+                           if k not in ("checks", *RESULT_KEYS)}
     return doc
 
 
@@ -337,7 +357,8 @@ def results_csv(doc: dict) -> str:
             writer.writerow(base)
         for check in enc["checks"]:
             row = dict(base, check=check["name"])
-            row.update({k: ("" if check[k] is None else check[k]) for k in _CHECK_KEYS[1:]})
+            row.update({k: ("" if check.get(k) is None else check[k]) for k in CSV_COLUMNS
+                        if k in CHECK_KEYS})
             writer.writerow(row)
     return buf.getvalue()
 
@@ -380,14 +401,12 @@ def _execute(pool: ProcessPoolExecutor, tasks: list[dict], progress: bool) -> li
 
 
 def _order(tasks: list[dict], site) -> list[dict]:
-    """Longest first: the overview, then enclosures by their number of lamps and surfaces.
+    """Longest first: enclosures by their number of lamps and surfaces.
 
     With a few workers and a dozen workbooks, starting the long ones first keeps a long
     one from running alone at the end (longest-processing-time-first scheduling).
     """
     def weight(task: dict) -> int:
-        if task.get("overview"):
-            return 1_000_000
         enclosure = site.enclosure(task["id"])
         return sum(len(getattr(enclosure, name, None) or ())
                    for name in ("lamps", "surfaces"))
@@ -413,7 +432,8 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     audit_date : str, optional
         ISO date passed to the workbooks (default: the workbooks' own default).
     overview : bool
-        Also run the site overview workbook.
+        Also run the site overview workbook, after the enclosures, on the run's
+        ``results.json`` (so it shows the reports' figures).
     progress : bool
         Show a progress bar on standard error.
     workbook, overview_workbook : str or PathLike, optional
@@ -431,7 +451,7 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     out_dir = Path(out_dir).resolve()
     # at most one worker per workbook; the count of enclosures is known only after loading
     # the site, so it is bounded by ``only`` when given
-    limit = len(set(only)) + bool(overview) if only else None
+    limit = len(set(only)) if only else None
     jobs = max(1, min(jobs or os.cpu_count() or 1, limit or 1_000_000))
     pool = _start_pool(jobs, site_dir)  # workers start their kernels while the site is validated
     try:
@@ -443,29 +463,30 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         previous = _previous(out_dir, site.name)
         workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()
         overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
-        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook,
-                       overview_workbook if overview and overview_workbook.exists() else None)
+        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook)
+        run_overview = overview and overview_workbook.exists()
     except BaseException:
         # bad input: report it now; the workers finish starting, then stop with their kernels
         pool.shutdown(wait=False, cancel_futures=True)
         raise
+
+    def outcome(d: dict) -> EnclosureOutcome:
+        return EnclosureOutcome(**{k: d[k] for k in d if k in
+                                   EnclosureOutcome.__dataclass_fields__})
+
     try:
         by_id = {d["id"]: d for d in _execute(pool, _order(tasks, site), progress)}
+        outcomes = [outcome(by_id[e.id]) if e.id in by_id else
+                    previous.get(e.id, EnclosureOutcome(id=e.id, name=e.name))
+                    for e in site.records.enclosures]
+        result = BatchResult(site_name=site.name, out_dir=out_dir, outcomes=outcomes)
+        write_outputs(result, site)
+        if run_overview:  # reads the results.json just written: the reports' own figures
+            task = _overview_task(site_dir, out_dir, audit_date, overview_workbook)
+            result.overview = outcome(_execute(pool, [task], progress)[0])
+            write_outputs(result, site)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
-
-    def outcome(enclosure_id: str, name: str) -> EnclosureOutcome:
-        if enclosure_id in by_id:
-            d = by_id[enclosure_id]
-            return EnclosureOutcome(**{k: d[k] for k in d if k in
-                                       EnclosureOutcome.__dataclass_fields__})
-        return previous.get(enclosure_id, EnclosureOutcome(id=enclosure_id, name=name))
-
-    outcomes = [outcome(e.id, e.name) for e in site.records.enclosures]
-    result = BatchResult(site_name=site.name, out_dir=out_dir, outcomes=outcomes,
-                         overview=outcome(OVERVIEW_ID, "Site overview")
-                         if OVERVIEW_ID in by_id else None)
-    write_outputs(result, site)
     return result
 
 
