@@ -220,12 +220,43 @@ def test_demo_results_match_the_library(demo_run):
         audit = audit_enclosure(site, entry["id"])
         assert entry["verdict"] == audit.verdict
         assert [c["name"] for c in entry["checks"]] == [c.name for c in audit.checks]
+        assert [c["check_id"] for c in entry["checks"]] == [c.id for c in audit.checks]
         for got, want in zip(entry["checks"], audit.checks, strict=True):
             assert got["state"] == want.state
             if want.value is None or not math.isfinite(want.value):
                 assert got["value"] is None
             else:
                 assert got["value"] == pytest.approx(want.value, rel=1e-6)
+
+
+@pytest.mark.slow
+def test_demo_figures_agree_across_results_csv_index_and_overview(demo_run):
+    """consistency: results.csv repeats results.json's check figures (by check id); the
+    index shows each verdict; the overview workbook ran on the run's results.json and its
+    report shows each enclosure's basking maximum and lamp forecast dates as results.json
+    has them (RFC 4180 CSV; papermill's recorded parameters)."""
+    _, out = demo_run
+    doc = _load(out)
+    rows = list(csv.DictReader(io.StringIO((out / "results.csv").read_text())))
+    by_key = {(r["enclosure"], r["check_id"]): r for r in rows}
+    overview_nb = nbformat.read(out / "reports" / "site-overview.ipynb", as_version=4)
+    assert overview_nb.metadata.papermill.parameters["results_json"] == str(
+        (out / "results.json").resolve())
+    overview_html = (out / "reports" / "site-overview.html").read_text()
+    index = (out / "index.html").read_text()
+    for entry in doc["enclosures"]:
+        assert entry["audit_date"] and entry["verdict"] in index
+        for check in entry["checks"]:
+            row = by_key[(entry["id"], check["check_id"])]
+            assert row["check"] == check["name"]
+            if check["value"] is None:
+                assert row["value"] == ""
+            else:
+                assert float(row["value"]) == check["value"]
+        bask = next(c for c in entry["checks"] if c["check_id"] == "basking_uvi_max")
+        assert f"{bask['value']:.2f}" in overview_html
+        for lamp in entry["lamps"]:
+            assert lamp["replace_by"] is None or lamp["replace_by"] in overview_html
 
 
 @pytest.mark.slow

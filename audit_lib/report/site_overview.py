@@ -185,7 +185,7 @@ def replacement_table(overview: SiteOverview) -> pd.DataFrame:
     order = {"below target": 0, "due soon": 1}
     t["_rank"] = t["state"].map(lambda s: order.get(s, 2))
     t = t.sort_values(["_rank", "replace_by"], na_position="last").drop(columns="_rank")
-    t["replace_by"] = t["replace_by"].map(lambda d: "no forecast" if d is None else d)
+    t["replace_by"] = t["replace_by"].map(lambda d: "no forecast" if pd.isna(d) else d)
     return t.round(2).set_index(["enclosure", "lamp"])
 
 
