@@ -64,7 +64,8 @@ def test_safe_stem_keeps_valid_ids_and_separates_others():
 
 
 def _result(tmp_path) -> BatchResult:
-    checks = [{"check_id": "basking_uvi_max", "name": "basking UV Index maximum", "value": 3.2, "unit": "UVI",
+    checks = [{"check_id": "basking_uvi_max", "name": "basking UV Index maximum", "value": 3.2,
+               "unit": "UVI",
                "target_low": 2.9, "target_high": 7.4, "state": "within range",
                "reason": "fine, \"quoted\", with a comma"},
               {"check_id": "keeper_exposure_time", "name": "keeper exposure limit",

@@ -26,7 +26,7 @@ from audit_lib.errors import InputError
 from audit_lib.judge.targets import REFUGE_UVI_MAX, read_zone_table, species_targets
 from audit_lib.light.sun import clear_sky_uvi_day
 from audit_lib.pipeline.assemble import build_lamp, build_scene, failed_labels, lamp_schedule
-from audit_lib.pipeline.audit import choose_audit_date
+from audit_lib.pipeline.audit import DEFAULT_SPACING_M, choose_audit_date
 from audit_lib.pipeline.findings import Findings, collect_notes, find_figures
 from audit_lib.pipeline.scenarios import (
     BLANK_ENCLOSURE_ID,
@@ -316,7 +316,7 @@ class WhatIfPlanner:
             record, scene, maps, failed=failed, scale=share,
             species=[species] if species else [], zones=self._zones, profiles=profiles,
             spectra_metrics=spectra, audit_date=self.day,
-            spacing_m=self.grids(scene)["floor"][1], main_lamp=c.lamp,
+            spacing_m=DEFAULT_SPACING_M, main_lamp=c.lamp,  # height search on the reports' grid
             cache=self._cached, cache_key=self._place_key(c))
         t3 = time.perf_counter()
         notes = [f"On {part:.0%} of {name!r} a lamp known from readings is used outside the "

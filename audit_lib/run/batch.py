@@ -20,11 +20,7 @@ APIs); the process pool is Python's ``concurrent.futures``.
 
 from __future__ import annotations
 
-import csv
-import datetime as dt
-import io
 import json
-import math
 import os
 import re
 import time
@@ -45,22 +41,19 @@ from audit_lib.run.notebooks import (
     read_report_data,
     write_atomic,
 )
+from audit_lib.run.results import (  # noqa: F401 - part of this module's interface
+    CHECK_KEYS,
+    CSV_COLUMNS,
+    RESULT_KEYS,
+    results_csv,
+    results_document,
+)
 from audit_lib.site.folder import load_site
 
 ENCLOSURE_WORKBOOK = WORKBOOKS_DIR / "enclosure_report.ipynb"
 OVERVIEW_WORKBOOK = WORKBOOKS_DIR / "site_overview.ipynb"
 OVERVIEW_ID = "site-overview"
 REPORTS_DIR = "reports"
-#: Columns of ``results.csv`` (one row per check; one row per enclosure that failed).
-CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "check_id", "value", "unit",
-               "target_low", "target_high", "state", "reason", "error")
-#: Keys of a check in ``results.json`` (docs/batch-reports.md).
-CHECK_KEYS = ("check_id", "name", "species", "value", "unit", "target_low", "target_high",
-              "state", "reason")
-#: Keys of an enclosure entry beyond the outcome's own (from the workbook's results), with
-#: their value when the workbook gave none.
-RESULT_KEYS = {"audit_date": None, "zone": None, "reason": None, "recommendation": None,
-               "actions": [], "lamps": []}
 #: Code a worker's kernel runs once, while the main process validates the site: the heavy
 #: imports, one small figure, one spectrum's metrics and the site itself, so fonts, colour
 #: tables, unit tables and cached weights are loaded before the first workbook; then the
@@ -321,48 +314,6 @@ def _previous(out_dir: Path, site_name: str) -> dict[str, EnclosureOutcome]:
     return kept
 
 
-def _clean(value):
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
-
-
-def results_document(result: BatchResult) -> dict:
-    """Return the ``results.json`` content of a batch run (JSON-able, no NaN)."""
-    def one(o: EnclosureOutcome) -> dict:
-        checks = [{k: _clean(c.get(k)) for k in CHECK_KEYS} for c in o.checks]
-        entry = {"id": o.id, "name": o.name, "verdict": o.verdict, "report": o.report,
-                 "notebook": o.notebook, "error": o.error, "checks": checks}
-        entry.update({k: o.results.get(k, default) for k, default in RESULT_KEYS.items()})
-        return entry
-
-    doc = {"site": result.site_name, "library_version": __version__,
-           "generated": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
-           "enclosures": [one(o) for o in result.outcomes]}
-    if result.overview is not None:
-        doc["overview"] = {k: v for k, v in one(result.overview).items()
-                           if k not in ("checks", *RESULT_KEYS)}
-    return doc
-
-
-def results_csv(doc: dict) -> str:
-    """Return ``results.csv``: one row per check, one row per enclosure without checks."""
-    buf = io.StringIO()
-    writer = csv.DictWriter(buf, fieldnames=CSV_COLUMNS, lineterminator="\n")
-    writer.writeheader()
-    for enc in doc["enclosures"]:
-        base = {"enclosure": enc["id"], "enclosure_name": enc["name"],
-                "verdict": enc["verdict"] or "", "error": enc["error"] or ""}
-        if not enc["checks"]:
-            writer.writerow(base)
-        for check in enc["checks"]:
-            row = dict(base, check=check["name"])
-            row.update({k: ("" if check.get(k) is None else check[k]) for k in CSV_COLUMNS
-                        if k in CHECK_KEYS})
-            writer.writerow(row)
-    return buf.getvalue()
-
-
 def _start_pool(jobs: int, site_dir: Path) -> ProcessPoolExecutor:
     """Start ``jobs`` workers now; each starts and warms its kernel in the background."""
     import multiprocessing
@@ -380,7 +331,13 @@ def _execute(pool: ProcessPoolExecutor, tasks: list[dict], progress: bool) -> li
     from tqdm import tqdm
 
     done: list[dict] = []
-    futures = {pool.submit(_run_task, t): t for t in tasks}
+    futures = {}
+    for t in tasks:
+        try:
+            futures[pool.submit(_run_task, t)] = t
+        except BrokenProcessPool:  # a worker ended before this task could be queued
+            done.append({"id": t["id"], "name": t["name"], "error":
+                         "the worker process for this workbook ended unexpectedly"})
     bar = tqdm(total=len(tasks), unit="workbook", desc="auditing", disable=not progress)
     try:
         for future in as_completed(futures):
