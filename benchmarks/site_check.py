@@ -16,8 +16,8 @@ from pathlib import Path
 
 import tomli_w
 
-from audit_lib.site.readings import read_readings
 from audit_lib.site.folder import check_site, load_site
+from audit_lib.site.readings import read_readings
 
 PARK = Path(__file__).resolve().parent.parent / "sample_sites" / "kestrel-moor-wildlife-park"
 COPIES = 25

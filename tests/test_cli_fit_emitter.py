@@ -16,7 +16,8 @@ def _write(path, wl, values, unit="W/m^2/nm"):
 
 
 def test_fit_emitter_recovers_a_synthetic_line(tmp_path, capsys):
-    """A synthetic split-Lorentzian line (the issue's definitions of FWHM and asymmetry),
+    """A synthetic split-Gaussian line (the default shape; the issue's definitions of FWHM and
+    asymmetry),
     written in uW/cm^2/nm, is read with its unit and fitted back."""
     wl = np.arange(260.0, 360.0, 0.5)
     values_w = 0.01 * line_shape(wl, 306.0, 11.0, 1.25)

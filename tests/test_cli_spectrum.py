@@ -80,3 +80,23 @@ def test_missing_file_exits_2(tmp_path, capsys):
     """A path that does not exist is bad input too."""
     assert main(["spectrum", str(tmp_path / "nope.csv")]) == 2
     assert "nope.csv" in capsys.readouterr().err
+
+
+def test_risk_group_needs_the_measurement_distance(capsys):
+    """IEC 62471 states the risk group at 200 mm (from memory): with --distance the spectrum
+    is moved there by the inverse-square law and classified; without it the group is null and
+    the table says why."""
+    moved = _json(capsys, DATA / "demo_uv_tube_t5.tsv", "--distance", "40 cm")
+    assert moved["risk_group_distance_m"] == 0.2
+    assert moved["measurement_distance_m"] == pytest.approx(0.4)
+    assert moved["actinic_w_m2_at_distance"] == pytest.approx(4 * moved["actinic_w_m2"])
+    assert moved["risk_group"] in ("exempt", "risk group 1", "risk group 2", "risk group 3")
+    assert _json(capsys, DATA / "demo_uv_tube_t5.tsv", "--distance", "0.4") == moved
+    unknown = _json(capsys, DATA / "demo_uv_tube_t5.tsv")
+    assert unknown["risk_group"] is None and unknown["risk_group_distance_m"] is None
+    assert main(["spectrum", str(DATA / "demo_uv_tube_t5.tsv")]) == 0
+    assert "no risk group: IEC 62471 states it at 200 mm" in capsys.readouterr().out
+    assert main(["spectrum", str(DATA / "demo_uv_tube_t5.tsv"), "--distance", "30 cm"]) == 0
+    assert "inverse-square law, an assumption" in capsys.readouterr().out
+    assert main(["spectrum", str(DATA / "demo_uv_tube_t5.tsv"), "--distance", "far"]) == 2
+    assert "--distance" in capsys.readouterr().err

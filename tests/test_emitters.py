@@ -9,6 +9,8 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 
+from audit_lib.errors import InputError
+from audit_lib.light.spectra import Spectrum
 from audit_lib.sources.emitters import (
     LINE_SHAPES,
     AngularPattern,
@@ -25,8 +27,6 @@ from audit_lib.sources.emitters import (
     relative_spectrum,
     weigh_emitter,
 )
-from audit_lib.errors import InputError
-from audit_lib.light.spectra import Spectrum
 
 
 def _half_max_points(peak, fwhm, asym, shape):
@@ -56,7 +56,8 @@ def test_symmetric_lorentzian_is_the_cauchy_distribution():
     """scipy.stats.cauchy with scale = HWHM is the Lorentzian; normalised to 1 at the peak."""
     wl = np.linspace(250, 360, 1101)
     expected = stats.cauchy.pdf(wl, loc=305, scale=6.0) * np.pi * 6.0
-    np.testing.assert_allclose(line_shape(wl, 305, 12.0), expected, rtol=1e-12)
+    np.testing.assert_allclose(line_shape(wl, 305, 12.0, shape="lorentzian"), expected,
+                               rtol=1e-12)
 
 
 def test_symmetric_gaussian_is_the_normal_distribution():
@@ -217,3 +218,58 @@ def test_emitter_type_validation():
         EmitterType("x", 450, 20, 1.0, phosphor_bands=(PhosphorBand(560, 100, 1.2),))
     e = EmitterType("x", 305, 10, 1.0)
     assert replace(e, radiant_flux_w=2.0).radiant_flux_w == 2.0
+
+
+def _physical_uvb_led_line(grid_nm, peak_nm=310.0, fwhm_nm=12.0):
+    """An LED line from semiconductor physics, on ``grid_nm`` [nm], peak 1.
+
+    Ideal band-to-band emission sqrt(E - Eg) exp(-(E - Eg)/kT) at 300 K (Schubert,
+    Light-Emitting Diodes, 2nd ed. 2006, ch. 5) convolved with a Gaussian spread of the
+    band gap (alloy broadening; Chen et al., "Spectral shape and broadening of emission from
+    AlGaInP light-emitting diodes", found that spread nearly Gaussian), the spread chosen so
+    the line has the wanted FWHM in wavelength.
+    """
+    from scipy.optimize import brentq
+
+    hc, kt, step = 1239.84198, 0.025852, 1e-4  # eV nm, eV at 300 K, eV
+
+    def line(sigma):
+        x = np.arange(0.0, 60 * kt, step)
+        g = np.arange(-8 * sigma, 8 * sigma + step / 2, step)
+        conv = np.convolve(np.sqrt(x) * np.exp(-x / kt), np.exp(-0.5 * (g / sigma) ** 2))
+        offset = np.arange(conv.size) * step - 8 * sigma
+        energy = hc / peak_nm + offset - offset[np.argmax(conv)]
+        wl, per_nm = hc / energy, conv * energy**2 / hc  # dE/dlambda = E^2 / hc
+        order = np.argsort(wl)
+        return wl[order], per_nm[order]
+
+    def width(sigma):
+        wl, y = line(sigma)
+        above = wl[y >= y.max() / 2]
+        return above.max() - above.min() - fwhm_nm
+
+    wl, y = line(brentq(width, 0.005, 0.2))
+    out = np.interp(grid_nm, wl, y, left=0.0, right=0.0)
+    return out / out.max()
+
+
+def test_gaussian_default_is_closer_to_a_physical_led_line_than_lorentzian():
+    """Why Gaussian is the default line shape: for a 310 nm, 12 nm FWHM UVB LED modelled from
+    semiconductor physics (Schubert 2006 ideal line, Gaussian alloy broadening), the Gaussian
+    of the same peak and FWHM gets the short-wave UVB share (280-290 nm) and the actinic
+    hazard E_S far closer than the Lorentzian, whose 1/x^2 tail inflates both (issue 12)."""
+    from audit_lib.light.metrics import weighted_quantities
+
+    grid = np.arange(200.0, 830.5, 0.5)
+
+    def figures(y):
+        q = weighted_quantities(grid, y / np.trapezoid(y, grid))
+        return np.array([float(q["short_uvb_w_m2"] / q["uvb_w_m2"]), float(q["actinic_w_m2"])])
+
+    physical = figures(_physical_uvb_led_line(grid))
+    default = figures(line_shape(grid, 310.0, 12.0))
+    lorentz = figures(line_shape(grid, 310.0, 12.0, shape="lorentzian"))
+    assert np.all(np.abs(np.log(default / physical)) < np.abs(np.log(lorentz / physical)))
+    assert default[1] == pytest.approx(physical[1], rel=0.15)  # E_S within 15 %
+    assert lorentz[1] > 2 * physical[1]  # the Lorentzian more than doubles E_S
+    np.testing.assert_allclose(default, figures(line_shape(grid, 310.0, 12.0, shape="gaussian")))

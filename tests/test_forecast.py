@@ -59,10 +59,15 @@ def test_import_and_forecast_commands(site, capsys):
     assert "ok" in capsys.readouterr().out.splitlines()[1]
 
 
-def test_forecast_without_history_is_an_input_error(site, capsys):
-    """No database yet: exit status 2 and a hint (project CLI rule: bad input exits 2)."""
-    assert cli.main(["forecast", str(site)]) == 2
-    assert "no history database yet (hint: run 'light-audit import" in capsys.readouterr().err
+def test_forecast_without_import_brings_the_history_up_to_date(site, capsys):
+    """The history is derived from the readings folder: `forecast` on a site never imported
+    syncs it itself, and a second run adds nothing (idempotent; issue 14)."""
+    assert cli.main(["forecast", str(site)]) == 0
+    assert "viv-1" in capsys.readouterr().out
+    stored = history.read_all_readings(site / "history.sqlite")
+    assert len(stored) == 2 * len(DAYS)
+    assert cli.main(["forecast", str(site)]) == 0
+    assert len(history.read_all_readings(site / "history.sqlite")) == 2 * len(DAYS)
 
 
 def test_invalid_site_writes_nothing(site, capsys):

@@ -121,3 +121,81 @@ def test_corrupt_spreadsheet_is_an_input_error(tmp_path):
     path.write_text("not a spreadsheet")
     with pytest.raises(InputErrors, match=r"r\.xlsx: cannot read the file: File is not a zip"):
         read_readings(path)
+
+
+#: The ROWS above as a European spreadsheet saves them: semicolons, decimal commas.
+EUROPEAN = [HEADER.replace(",", ";"),
+            "2026-03-10;viv-1;bar;basking;;;;;uvi;3,4;UVI;m1;",
+            "2026-03-10;viv-1;bar;;0,4;0,3;0,2;0,35;uvb_w_m2;120;uW/cm^2;m2;on axis, lamp only",
+            "2026-03-10;viv-1;;hide;;;;;illuminance_lux;2,5;klx;m3;",
+            "2026-03-10;viv-1;bar;basking;;;;;uva_w_m2;85;mW/m2;m4;"]
+
+
+def test_semicolons_and_decimal_commas_read_like_the_comma_file(tmp_path):
+    """A file saved by a spreadsheet in a decimal-comma locale (';' between columns, ','
+    before decimals, as RFC 4180 allows another separator in practice) gives the same
+    table as the comma file (common practice of European spreadsheet exports)."""
+    comma = read_readings(_write(tmp_path, ROWS, name="comma.csv"))
+    path = _write(tmp_path, EUROPEAN[1:], header=EUROPEAN[0], name="semi.csv")
+    semi = read_readings(path)
+    pd.testing.assert_frame_equal(semi.drop(columns=["source_file"]),
+                                  comma.drop(columns=["source_file"]))
+
+
+def test_windows_1252_file_is_read(tmp_path):
+    """A "CSV" from a Western-European Windows spreadsheet is Windows-1252: µ and ² are the
+    bytes B5 and B2 (the Windows-1252 code chart); 120 µW/cm² = 1.2 W/m² (NIST SP 811)."""
+    text = "\n".join([EUROPEAN[0], "2026-03-10;viv-1;bar;;;;;;uvb_w_m2;120;µW/cm²;m2;"])
+    (tmp_path / "r.csv").write_bytes(text.encode("cp1252"))
+    frame = read_readings(tmp_path / "r.csv")
+    assert frame["unit"].tolist() == ["µW/cm²"]
+    assert frame["value_si"].tolist() == pytest.approx([1.2])
+
+
+def test_point_in_a_decimal_comma_file_is_ambiguous(tmp_path):
+    """'12.500' in a decimal-comma file may be twelve thousand five hundred (a thousands
+    point) or twelve and a half: refused, not guessed (common practice)."""
+    rows = ["2026-03-10;viv-1;;;;;;;uvi;3,4;UVI;;", "2026-03-10;viv-1;;;;;;;illuminance_lux;"
+            "12.500;lx;;"]
+    path = _write(tmp_path, rows, header=EUROPEAN[0])
+    with pytest.raises(InputErrors, match=r"r\.csv:4: value: '12\.500' has a point in a file "
+                                          r"written with decimal commas \(hint: write numbers "
+                                          r"without thousands separators"):
+        read_readings(path)
+
+
+def test_unknown_separator_is_one_problem_naming_the_separator(tmp_path):
+    """A header that does not split into columns is one problem that says so, not one
+    "missing column" per required column (issue 14)."""
+    path = _write(tmp_path, ["2026-03-10|viv-1|uvi|3.4|UVI"],
+                  header="date|enclosure|quantity|value|unit")
+    with pytest.raises(InputErrors) as info:
+        read_readings(path)
+    (problem,) = info.value.problems
+    assert problem.message == "the header 'date|enclosure|quantity|value|unit' is not split " \
+                              "into columns"
+    assert problem.hint.startswith("separate the columns with commas, semicolons or tabs")
+
+
+def test_semicolon_row_with_an_extra_field_names_the_separator(tmp_path):
+    """A note holding the separator must be quoted (RFC 4180 section 2, rule 6)."""
+    path = _write(tmp_path, ["2026-03-10;viv-1;;;;;;;uvi;3,4;UVI;;a; b"], header=EUROPEAN[0])
+    with pytest.raises(InputErrors, match=r"14 fields where the header has 13 \(hint: columns "
+                                          r"are separated by semicolons"):
+        read_readings(path)
+
+
+def test_demo_comma_files_read_as_before():
+    """The existing comma files are read exactly as before the dialect detection: every
+    value as written, as a plain float (regression pin of our own reader)."""
+    import csv
+    from pathlib import Path
+
+    folder = Path(__file__).resolve().parent.parent / "sample_sites" / \
+        "kestrel-moor-wildlife-park" / "readings"
+    frame = read_readings(folder)
+    expected = []
+    for path in sorted(folder.glob("*.csv")):
+        lines = [ln for ln in path.read_text().splitlines() if not ln.startswith("#")]
+        expected += [float(row["value"]) for row in csv.DictReader(lines)]
+    assert frame["value"].tolist() == expected

@@ -91,7 +91,7 @@ def test_scenario_site_reproduces_the_plan_with_output_scaled_in_the_records(sit
 
     site = load_site(site_copy)
     planner = WhatIfPlanner(site, "rh-09", shape=(16, 20))
-    r = planner.update(output_share=0.6, failed_emitters=(1, 2), z_m=1.6)
+    r = planner.update(output_share=0.6, failed_emitters=(1, 2), z_m=1.8)
     planner.save_scenario("aged-panel")
     copy, enclosure = write_scenario_site(site_copy, "aged-panel", site_copy.parent / "copy")
     other = load_site(copy)

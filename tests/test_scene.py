@@ -8,19 +8,8 @@ import warnings
 import numpy as np
 import pytest
 
-from audit_lib.sources.emitters import EmitterType, lambertian_order, line_shape, pattern_solid_angle
 from audit_lib.errors import InputError
-from audit_lib.sources.lamps import (
-    LedArray,
-    MeasuredLamp,
-    OutsideMeasuredRangeWarning,
-    PointLamp,
-    TubeLamp,
-    fit_distance_law,
-    lamp_sources,
-    lamp_spectrum,
-    line_of_emitters,
-)
+from audit_lib.light.spectra import Spectrum
 from audit_lib.scene.maps import (
     Enclosure,
     PlacedLamp,
@@ -33,7 +22,23 @@ from audit_lib.scene.maps import (
     statistics_table,
     surface_statistics,
 )
-from audit_lib.light.spectra import Spectrum
+from audit_lib.sources.emitters import (
+    EmitterType,
+    lambertian_order,
+    line_shape,
+    pattern_solid_angle,
+)
+from audit_lib.sources.lamps import (
+    LedArray,
+    MeasuredLamp,
+    OutsideMeasuredRangeWarning,
+    PointLamp,
+    TubeLamp,
+    fit_distance_law,
+    lamp_sources,
+    lamp_spectrum,
+    line_of_emitters,
+)
 
 FLAT = Spectrum(np.arange(250.0, 801.0, 1.0), np.ones(551), name="flat")
 
@@ -125,20 +130,14 @@ def test_line_source_distance_regimes():
     assert below(5.0) / below(10.0) == pytest.approx(4.0, rel=0.02)
 
 
-def test_tube_reference_distance_and_reflector():
-    """A tube scaled to a spectrum measured below its middle reproduces that reading there,
-    with any reflector factor (handbook aspect factor, used in reverse)."""
+def test_tube_reference_distance():
+    """A tube scaled to a spectrum measured below its middle reproduces that reading there
+    (handbook aspect factor, used in reverse)."""
     measured = FLAT.scaled(0.002)
     expected = 35 * 0.002
-    for f in (1.0, 1.7):
-        tube = TubeLamp("t", 0.9, measured, reference_distance_m=0.3, reflector_factor=f)
-        enc = _box(PlacedLamp(tube, 1.0, 1.0, 0.8))
-        assert _at(enc, 1.0, 1.0, 0.5) == pytest.approx(expected, rel=1e-3)
-    bare = TubeLamp("t", 0.9, FLAT, radiant_flux_w=1.0)
-    shiny = TubeLamp("t", 0.9, FLAT, radiant_flux_w=1.0, reflector_factor=2.0)
-    assert _at(_box(PlacedLamp(shiny, 1, 1, 0.5)), 1, 1, 0) == pytest.approx(
-        2 * _at(_box(PlacedLamp(bare, 1, 1, 0.5)), 1, 1, 0), rel=1e-12
-    )
+    tube = TubeLamp("t", 0.9, measured, reference_distance_m=0.3)
+    enc = _box(PlacedLamp(tube, 1.0, 1.0, 0.8))
+    assert _at(enc, 1.0, 1.0, 0.5) == pytest.approx(expected, rel=1e-3)
     with pytest.raises(InputError, match="give exactly one of radiant_flux_w and reference"):
         lamp_sources(TubeLamp("t", 0.9, FLAT))
 
@@ -367,16 +366,11 @@ def test_incidence_angle_is_the_geometric_angle():
     assert pv["incidence_deg"].tolist() == pytest.approx([0.0, 45.0], abs=1e-6)
 
 
-def test_reflector_acts_only_in_front_of_the_lamp():
-    """The reflector factor multiplies intensity in the lamp's front half-space only: a tube
-    turned to shine sideways (tilt 90 deg) lights the floor below it like a bare tube."""
-    bare = TubeLamp("t", 0.6, FLAT, radiant_flux_w=1.0)
-    shiny = TubeLamp("t", 0.6, FLAT, radiant_flux_w=1.0, reflector_factor=2.0)
-    sideways = [_box(PlacedLamp(t, 1.0, 1.0, 0.5, tilt_deg=90.0)) for t in (bare, shiny)]
-    behind = [_at(enc, 1.0, 0.7, 0.0) for enc in sideways]  # ray goes to -y: behind the front
-    front = [_at(enc, 1.0, 1.3, 0.0) for enc in sideways]  # ray goes to +y: in front
-    assert behind[1] == pytest.approx(behind[0], rel=1e-12)
-    assert front[1] == pytest.approx(2 * front[0], rel=1e-12)
+def test_tube_has_no_reflector_factor():
+    """The reflector factor went (issue 12): a reading under the fitting holds the reflector's
+    gain, and a uniform front gain does not shape the beam (project decision)."""
+    with pytest.raises(TypeError, match="reflector_factor"):
+        TubeLamp("t", 0.6, FLAT, radiant_flux_w=1.0, reflector_factor=2.0)
 
 
 def test_lamp_spectrum_matches_the_map_in_the_far_field():

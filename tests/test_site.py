@@ -9,8 +9,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from audit_lib.run.cli import main
 from audit_lib.errors import InputError
+from audit_lib.run.cli import main
 from audit_lib.site.folder import check_site, load_site, new_site, save_site
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
@@ -250,3 +250,57 @@ def test_meter_overdue_for_calibration_warns(tmp_path):
     with pytest.warns(SiteWarning, match=r"meter 'uvi-meter' was calibrated on 2024-06-01, more "
                                          r"than a year before its readings of 2026-01-15"):
         load_site(tmp_path)
+
+
+def test_new_site_placeholders_are_flagged_until_edited(tmp_path, capsys):
+    """An unedited starting folder is valid but not silently so: each placeholder and
+    unchanged example is a warning naming its key and line (issue 14)."""
+    from audit_lib.site.folder import SiteWarning
+    from audit_lib.site.template import PLACEHOLDERS, STARTER_SITE_TOML
+
+    assert all(f'{key} = "{value}"' in STARTER_SITE_TOML for key, value in PLACEHOLDERS.items())
+    root = tmp_path / "n"
+    new_site(root)
+    with pytest.warns(SiteWarning) as caught:
+        load_site(root)
+    texts = [str(w.message) for w in caught]
+    assert [t.split(": ", 1)[1] for t in texts] == [
+        "site.name: still the starter's placeholder 'My collection' "
+        "(hint: write your own; it is shown on every report)",
+        "site.auditor: still the starter's placeholder 'Your name' "
+        "(hint: write your own; it is shown on every report)",
+        "meters[0]: meter 'uvi-meter' is the starter's example, unchanged "
+        "(hint: describe your own meter here, or remove this one)",
+        "lamp_models[0]: lamp model 'uvb-tube-60cm' is the starter's example, unchanged "
+        "(hint: describe your own lamp model here, or remove this one)",
+        "species[0]: species 'example-lizard' is the starter's example, unchanged "
+        "(hint: describe your own species here, or remove this one)",
+        "enclosures[0]: enclosure 'viv-1' is the starter's example, unchanged "
+        "(hint: describe your own enclosure here, or remove this one)",
+        "the starter's example readings, unchanged "
+        "(hint: replace them with your own readings, or delete the file)",
+    ]
+    assert main(["check", str(root)]) == 0
+    captured = capsys.readouterr()
+    assert "valid; 1 enclosures, 1 lamps, 1 lamp models, 2 readings; 7 warning(s) to attend to" \
+        in captured.out
+    assert "site.auditor: still the starter's placeholder 'Your name'" in captured.err
+
+    toml = root / "site.toml"
+    text = toml.read_text()
+    for old, new in [('"My collection"', '"Fen edge reptile room"'),
+                     ('"Your name"', '"A. Keeper"'),
+                     ("calibration_date = 2025-06-01", "calibration_date = 2025-11-03"),
+                     ('reference = { distance = "30 cm", uvi = 2.0 }',
+                      'reference = { distance = "30 cm", uvi = 2.4 }'),
+                     ('scientific_name = "Example species"', 'scientific_name = "Fictus lacerta"'),
+                     ('name = "Vivarium 1"', 'name = "Corner vivarium"')]:
+        text = text.replace(old, new, 1)
+    toml.write_text(text)
+    readings = root / "readings" / "first-audit.csv"
+    readings.write_text(readings.read_text().replace(",2.1,", ",2.3,"))
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", SiteWarning)
+        load_site(root)

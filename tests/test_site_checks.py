@@ -9,8 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.run.cli import main
 from audit_lib.errors import InputErrors
+from audit_lib.run.cli import main
 from audit_lib.site.folder import check_site, load_site, new_site
 from audit_lib.site.messages import locate_keys
 
@@ -98,10 +98,10 @@ def _site_with(tmp_path: Path, old: str, new: str) -> Path:
 
 def test_unknown_key_hint_names_the_closest_key(tmp_path):
     """A misspelt key gets a did-you-mean hint (difflib, Python standard library)."""
-    root = _site_with(tmp_path, "reflector_factor = 1.6", "reflektor_factor = 1.6")
+    root = _site_with(tmp_path, "asymmetry = 0.5", "asymetry = 0.5")
     (problem,) = check_site(root, today=TODAY)
-    assert problem.field == "lamp_models[0].reflektor_factor"
-    assert re.search(r"did you mean 'reflector_factor'\?", problem.hint)
+    assert problem.field == "lamp_models[0].bands[0].asymetry"
+    assert re.search(r"did you mean 'asymmetry'\?", problem.hint)
     assert problem.line == locate_keys((root / "site.toml").read_text())[problem.field]
 
 

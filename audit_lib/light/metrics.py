@@ -23,7 +23,7 @@ import warnings
 
 import numpy as np
 
-from audit_lib.errors import AuditWarning
+from audit_lib.errors import AuditWarning, InputError
 from audit_lib.light.action_spectra import (
     actinic_hazard_icnirp2004,
     erythema_cie1998,
@@ -251,13 +251,60 @@ def uva_eye_limit_s(uva_w_m2):
     )
 
 
-def risk_group(actinic_w_m2: float, uva_w_m2: float) -> str:
-    """Indicative IEC 62471 risk group from the actinic and UVA emission limits.
+#: Indicative IEC 62471:2006 risk groups, in order (exempt group, risk groups 1-3).
+RISK_GROUPS = ("exempt", "risk group 1", "risk group 2", "risk group 3")
+#: Upper emission limits of the exempt group, risk group 1 and risk group 2 for the actinic
+#: UV hazard E_S [W m-2]: 30 J m-2 effective over 30 000 s, 10 000 s and 1 000 s.
+#: IEC 62471:2006 Table 6.1 -- FROM MEMORY (the standard was not read); the derivation from
+#: the ICNIRP 2004 limit of 30 J m-2 (read) and those exposure times is consistent with it.
+ACTINIC_RISK_LIMITS_W_M2 = (0.001, 0.003, 0.03)
+#: The same for the UVA (315-400 nm) eye hazard E_UVA [W m-2]: 10^4 J m-2 over 1 000 s,
+#: 300 s and 100 s. IEC 62471:2006 Table 6.1 -- FROM MEMORY.
+UVA_RISK_LIMITS_W_M2 = (10.0, 33.0, 100.0)
+#: Distance at which lamps other than general lighting service lamps are classified [m]
+#: (IEC 62471:2006 §5.1.1, 200 mm -- from memory).
+RISK_GROUP_DISTANCE_M = 0.2
+#: General lighting service lamps are classified where they give this illuminance, but not
+#: nearer than :data:`RISK_GROUP_DISTANCE_M` [lx] (IEC 62471:2006 §5.1.1 -- from memory).
+GENERAL_LIGHTING_ILLUMINANCE_LUX = 500.0
 
-    Limits (IEC 62471:2006 Table 6.1, from memory): actinic E_S exempt < 0.001, group 1
-    < 0.003, group 2 < 0.03 W m-2; UVA exempt < 10, group 1 < 33, group 2 < 100 W m-2;
-    the higher of the two groups is returned. Indicative only: a classification needs the
-    standard's measurement conditions and is not a certification.
+
+def hazard_risk_groups(actinic_w_m2: float, uva_w_m2: float) -> dict[str, str]:
+    """Indicative IEC 62471 risk group of each UV hazard and the overall (higher) group.
+
+    Limits :data:`ACTINIC_RISK_LIMITS_W_M2` and :data:`UVA_RISK_LIMITS_W_M2` (IEC 62471:2006
+    Table 6.1, from memory); a value equal to a limit falls in the higher group. The
+    irradiances must be those at the classification distance (200 mm, or the 500 lx distance
+    for general lighting service lamps): the groups mean nothing at any other distance.
+    Indicative only: a classification needs the standard's measurement conditions and is
+    not a certification.
+
+    Parameters
+    ----------
+    actinic_w_m2 : float
+        E_S at the classification distance [W m-2].
+    uva_w_m2 : float
+        E_UVA at the classification distance [W m-2].
+
+    Returns
+    -------
+    dict of str to str
+        ``actinic``, ``uva`` and ``overall``, each one of :data:`RISK_GROUPS`.
+    """
+    def level(value, limits):
+        return int(np.searchsorted(limits, value, side="right"))
+
+    actinic = level(actinic_w_m2, ACTINIC_RISK_LIMITS_W_M2)
+    uva = level(uva_w_m2, UVA_RISK_LIMITS_W_M2)
+    return {"actinic": RISK_GROUPS[actinic], "uva": RISK_GROUPS[uva],
+            "overall": RISK_GROUPS[max(actinic, uva)]}
+
+
+def risk_group(actinic_w_m2: float, uva_w_m2: float) -> str:
+    """Indicative IEC 62471 risk group: the higher of the actinic and UVA groups.
+
+    See :func:`hazard_risk_groups` (limits from memory; irradiances at the classification
+    distance).
 
     Parameters
     ----------
@@ -271,13 +318,40 @@ def risk_group(actinic_w_m2: float, uva_w_m2: float) -> str:
     str
         ``"exempt"``, ``"risk group 1"``, ``"risk group 2"`` or ``"risk group 3"``.
     """
-    groups = ("exempt", "risk group 1", "risk group 2", "risk group 3")
+    return hazard_risk_groups(actinic_w_m2, uva_w_m2)["overall"]
 
-    def level(value, limits):
-        return int(np.searchsorted(limits, value, side="right"))
 
-    index = max(level(actinic_w_m2, (0.001, 0.003, 0.03)), level(uva_w_m2, (10.0, 33.0, 100.0)))
-    return groups[index]
+def risk_group_at_distance(actinic_w_m2: float, uva_w_m2: float, distance_m: float) -> dict:
+    """Indicative risk group of a point source measured at ``distance_m``, moved to 200 mm.
+
+    Both irradiances are scaled by (distance / 0.2 m)^2 -- the inverse-square law of a point
+    source, an assumption: extended lamps (tubes, panels) fall off more slowly near the lamp,
+    so for them the figure at 200 mm is an upper estimate (common practice).
+
+    Parameters
+    ----------
+    actinic_w_m2, uva_w_m2 : float
+        E_S and E_UVA measured at ``distance_m`` [W m-2].
+    distance_m : float
+        Lamp-to-sensor distance of the measurement [m].
+
+    Returns
+    -------
+    dict
+        ``risk_group`` (overall), ``actinic_risk_group``, ``uva_risk_group``,
+        ``risk_group_distance_m`` [m], ``actinic_w_m2_at_distance`` and
+        ``uva_w_m2_at_distance`` [W m-2], ``risk_group_scaling`` (``"inverse_square"``).
+    """
+    if not np.isfinite(distance_m) or distance_m <= 0:
+        raise InputError(f"measurement distance must be positive, got {distance_m!r}",
+                         field="distance_m", hint="the lamp-to-sensor distance, e.g. 0.3 m")
+    scale = (float(distance_m) / RISK_GROUP_DISTANCE_M) ** 2
+    actinic, uva = float(actinic_w_m2) * scale, float(uva_w_m2) * scale
+    groups = hazard_risk_groups(actinic, uva)
+    return {"risk_group": groups["overall"], "actinic_risk_group": groups["actinic"],
+            "uva_risk_group": groups["uva"], "risk_group_distance_m": RISK_GROUP_DISTANCE_M,
+            "actinic_w_m2_at_distance": actinic, "uva_w_m2_at_distance": uva,
+            "risk_group_scaling": "inverse_square"}
 
 
 def peak_shape(wavelength_nm, irradiance, lo_nm: float = 250.0, hi_nm: float = 400.0):
@@ -448,21 +522,27 @@ def batch_metrics(wavelength_nm, irradiance_w_m2_nm, *, with_cct: bool = True):
     return q
 
 
-def spectrum_metrics(spectrum) -> dict:
+def spectrum_metrics(spectrum, distance_m: float | None = None) -> dict:
     """Every audited quantity of one spectrum, as JSON-able values (SI units).
 
     Parameters
     ----------
     spectrum : audit_lib.light.spectra.Spectrum
         The spectrum [nm], [W m-2 nm-1].
+    distance_m : float, optional
+        Lamp-to-sensor distance at which the spectrum was measured [m]. Needed for the
+        indicative risk group, which IEC 62471 states at 200 mm: the spectrum is moved there
+        by the inverse-square law (:func:`risk_group_at_distance`). Without it the risk
+        group is None and ``risk_group_missing`` says why.
 
     Returns
     -------
     dict
-        The keys of :func:`batch_metrics` plus ``uvi_category``, ``risk_group``
-        (indicative), ``sun_vitd_to_erythemal_ratio`` and ``sun_short_uvb_fraction`` [-]
-        (ASTM G173) and ``coverage_gaps``. Values that cannot be computed (no UVB, visible
-        not covered, unlimited time) are None.
+        The keys of :func:`batch_metrics` plus ``uvi_category``, ``sun_vitd_to_erythemal_ratio``
+        and ``sun_short_uvb_fraction`` [-] (ASTM G173), ``coverage_gaps``,
+        ``measurement_distance_m`` [m] and the keys of :func:`risk_group_at_distance`
+        (None without a distance, with ``risk_group_missing = "no_measurement_distance"``).
+        Values that cannot be computed (no UVB, visible not covered, unlimited time) are None.
 
     Warns
     -----
@@ -484,11 +564,19 @@ def spectrum_metrics(spectrum) -> dict:
     sun = sun_reference()
     result.update(
         uvi_category=uvi_category(result["uvi"]),
-        risk_group=risk_group(result["actinic_w_m2"], result["uva_w_m2"]),
         sun_vitd_to_erythemal_ratio=sun["vitd_to_erythemal_ratio"],
         sun_short_uvb_fraction=sun["short_uvb_fraction"],
         coverage_gaps=gaps,
+        measurement_distance_m=None if distance_m is None else float(distance_m),
     )
+    if distance_m is None:
+        result.update(risk_group=None, actinic_risk_group=None, uva_risk_group=None,
+                      risk_group_distance_m=None, actinic_w_m2_at_distance=None,
+                      uva_w_m2_at_distance=None, risk_group_scaling=None,
+                      risk_group_missing="no_measurement_distance")
+    else:
+        result.update(risk_group_at_distance(result["actinic_w_m2"], result["uva_w_m2"],
+                                             distance_m), risk_group_missing=None)
     if not covers_visible:
         result["illuminance_lux"] = None
         result["cct_k"] = None
@@ -510,7 +598,7 @@ METRIC_LABELS = {
     "actinic_w_m2": ("Actinic hazard E_S", "W/m²"),
     "keeper_limit_s": ("Keeper limit, skin and eyes (30 J/m² effective)", "s"),
     "uva_eye_limit_s": ("Keeper limit, UVA to the eye", "s"),
-    "risk_group": ("IEC 62471 risk group (indicative)", ""),
+    "risk_group": ("IEC 62471 risk group at 200 mm (indicative)", ""),
     "illuminance_lux": ("Illuminance", "lx"),
     "cct_k": ("Correlated colour temperature", "K"),
     "short_uvb_fraction": ("Share of UVB below 290 nm", ""),

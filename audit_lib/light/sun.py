@@ -1,19 +1,30 @@
-"""The sun as a reference: sunrise, sunset, day length and the clear-sky UV Index.
+"""The sun as a reference: sun position, sunrise, sunset, day length, clear-sky UV Index.
 
-Plain functions, no site knowledge. Solar position follows the NOAA Global Monitoring
-Laboratory "General Solar Position Calculations" (fractional-year series for the equation of
-time and the declination, accurate to about a minute for sunrise and sunset); sunrise and
-sunset are when the centre of the sun is at a zenith angle of 90.833 deg (0.833 deg for
-atmospheric refraction and the solar radius). The clear-sky UV Index uses the analytic
-approximation of Madronich (2007), Photochemistry and Photobiology 83:1537-1538.
+Plain functions, no site knowledge. The sun's position follows the NOAA Global Monitoring
+Laboratory solar calculator equations, which are those of Meeus (1998), *Astronomical
+Algorithms*, 2nd ed., ch. 25 ("solar coordinates, low accuracy": geometric mean longitude,
+mean anomaly, equation of the centre, apparent longitude with the nutation and aberration
+term, mean and corrected obliquity) and ch. 28 (equation of time, Smart's series). Their
+declination is good to about 0.01 deg over 1900-2100. Sunrise and sunset are when the
+centre of the sun is at a zenith angle of 90.833 deg (0.833 deg for atmospheric refraction
+and the solar radius, as NOAA and NREL SPA use); each event is found by fixed-point
+iteration with the declination and equation of time at the event itself (not at noon),
+which keeps sunrise, sunset and day length within a few seconds of NREL SPA (Reda &
+Andreas 2004) for |latitude| <= 65 deg on every day of the year (tests/test_sunlight.py
+checks it against pvlib's SPA over a whole year at nine latitudes). The clear-sky UV Index
+uses the analytic approximation of Madronich (2007), Photochemistry and Photobiology
+83:1537-1538.
 
-Times of day are local clock times in minutes after midnight; ``utc_offset_h`` converts from
-UTC (the equations work in UTC and longitude east positive).
+Times of day are local clock times in minutes after midnight of the local calendar day;
+``utc_offset_h`` converts from UTC (the equations work in UTC and longitude east positive).
+Universal time is used for terrestrial time (the ~70 s difference moves the sun by less
+than 0.001 deg).
 """
 
 from __future__ import annotations
 
 import datetime as dt
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,10 +32,14 @@ import numpy as np
 from audit_lib.errors import InputError
 from audit_lib.light.metrics import SED_J_M2, erythemal_from_uv_index
 
-#: Zenith angle of the sun's centre at sunrise and sunset [deg] (NOAA GML).
+#: Zenith angle of the sun's centre at sunrise and sunset [deg] (NOAA GML; NREL SPA).
 SUNRISE_ZENITH_DEG = 90.833
 #: Reference total ozone column of the Madronich (2007) approximation [DU].
 REFERENCE_OZONE_DU = 300.0
+#: Julian day of 2000-01-01 12:00 (epoch J2000.0) [d] (Meeus 1998, ch. 7).
+_J2000 = 2451545.0
+#: Fixed-point iterations for sunrise, sunset and solar noon (3 converge to < 0.1 s).
+_ITERATIONS = 3
 
 
 @dataclass(frozen=True)
@@ -34,13 +49,15 @@ class SunTimes:
     Attributes
     ----------
     date : datetime.date
-        The day.
+        The local calendar day.
     sunrise_min, solar_noon_min, sunset_min : float
         Local clock time in minutes after midnight; NaN for sunrise and sunset during
         polar day or night [min].
     day_length_h : float
         Hours with the sun's centre above the 90.833 deg zenith angle (0 or 24 at the
         poles' night and day) [h].
+    utc_offset_h : float
+        Local time minus UTC used for the clock times [h].
     """
 
     date: dt.date
@@ -48,6 +65,7 @@ class SunTimes:
     solar_noon_min: float
     sunset_min: float
     day_length_h: float
+    utc_offset_h: float = 0.0
 
 
 def _check_latitude(latitude_deg) -> np.ndarray:
@@ -61,61 +79,86 @@ def _check_latitude(latitude_deg) -> np.ndarray:
     return lat
 
 
-def _day_of_year(date) -> tuple[int, int]:
+def _as_date(date) -> dt.date:
     if isinstance(date, dt.datetime):
-        date = date.date()
+        return date.date()
     if not isinstance(date, dt.date):
         raise InputError(
             f"expected a date, got {date!r}", field="date", hint="use datetime.date(2026, 6, 21)"
         )
-    year_days = (
-        366 if (date.year % 4 == 0 and (date.year % 100 != 0 or date.year % 400 == 0)) else 365
-    )
-    return date.timetuple().tm_yday, year_days
+    return date
+
+
+def julian_day(date, hour_utc=0.0):
+    """Julian day of a calendar day and hour (proleptic Gregorian calendar).
+
+    Parameters
+    ----------
+    date : datetime.date
+        The day.
+    hour_utc : float or array_like
+        Hours after 00:00 UTC of that day; may be negative or beyond 24 [h].
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Julian day [d] (Meeus 1998, ch. 7: JD 2451544.5 is 2000-01-01 00:00 UT).
+    """
+    return _as_date(date).toordinal() + 1721424.5 + np.asarray(hour_utc, dtype=float) / 24.0
+
+
+def _declination_eot(jd, xp=np):
+    """Declination [rad] and equation of time [min] at Julian day(s) ``jd`` (Meeus 1998).
+
+    ``xp`` is :mod:`numpy` for arrays or :mod:`math` for one instant (sunrise iterations run
+    some twenty times faster on plain floats); the formula is written once for both.
+    """
+    asin = np.arcsin if xp is np else math.asin
+    rad = math.pi / 180.0
+    t = (jd - _J2000) / 36525.0  # Julian centuries since J2000.0
+    mean_long = ((280.46646 + t * (36000.76983 + t * 0.0003032)) % 360.0) * rad
+    anomaly = (357.52911 + t * (35999.05029 - 0.0001537 * t)) * rad
+    ecc = 0.016708634 - t * (0.000042037 + 0.0000001267 * t)
+    centre = (xp.sin(anomaly) * (1.914602 - t * (0.004817 + 0.000014 * t))
+              + xp.sin(2 * anomaly) * (0.019993 - 0.000101 * t)
+              + xp.sin(3 * anomaly) * 0.000289)  # fmt: skip
+    omega = (125.04 - 1934.136 * t) * rad
+    apparent_long = mean_long + (centre - 0.00569 - 0.00478 * xp.sin(omega)) * rad
+    mean_obliquity = 23.0 + (26.0 + (21.448 - t * (46.815 + t * (0.00059 - t * 0.001813)))
+                             / 60.0) / 60.0  # fmt: skip
+    obliquity = (mean_obliquity + 0.00256 * xp.cos(omega)) * rad
+    declination = asin(xp.sin(obliquity) * xp.sin(apparent_long))
+    y = xp.tan(obliquity / 2.0) ** 2
+    eot_rad = (y * xp.sin(2 * mean_long) - 2 * ecc * xp.sin(anomaly)
+               + 4 * ecc * y * xp.sin(anomaly) * xp.cos(2 * mean_long)
+               - 0.5 * y * y * xp.sin(4 * mean_long) - 1.25 * ecc * ecc * xp.sin(2 * anomaly))
+    return declination, 4.0 * eot_rad / rad
 
 
 def solar_declination_eot(date, hour_utc=12.0) -> tuple[np.ndarray, np.ndarray]:
-    """Solar declination and equation of time from the NOAA fractional-year series.
+    """Solar declination and equation of time at an instant.
 
     Parameters
     ----------
     date : datetime.date
         The day (Gregorian calendar).
     hour_utc : float or array_like
-        Hour of the day in UTC [h].
+        Hour of the day in UTC; may be negative or beyond 24 [h].
 
     Returns
     -------
-    declination_rad : ndarray
-        Solar declination [rad].
-    eot_min : ndarray
-        Equation of time, true minus mean solar time [min].
+    declination_rad : numpy.ndarray
+        Apparent solar declination [rad].
+    eot_min : numpy.ndarray
+        Equation of time, apparent minus mean solar time [min].
 
     Notes
     -----
-    NOAA GML, "General Solar Position Calculations":
-    gamma = 2 pi / N (doy - 1 + (hour - 12) / 24) with N = 365 or 366 days.
+    Meeus (1998), Astronomical Algorithms, ch. 25 (low-accuracy solar coordinates, apparent
+    longitude and corrected obliquity) and ch. 28 (equation of time), as in the NOAA GML
+    solar calculator; declination good to about 0.01 deg.
     """
-    doy, year_days = _day_of_year(date)
-    hour = np.asarray(hour_utc, dtype=float)
-    g = 2 * np.pi / year_days * (doy - 1 + (hour - 12) / 24)
-    eot = 229.18 * (
-        0.000075
-        + 0.001868 * np.cos(g)
-        - 0.032077 * np.sin(g)
-        - 0.014615 * np.cos(2 * g)
-        - 0.040849 * np.sin(2 * g)
-    )
-    decl = (
-        0.006918
-        - 0.399912 * np.cos(g)
-        + 0.070257 * np.sin(g)
-        - 0.006758 * np.cos(2 * g)
-        + 0.000907 * np.sin(2 * g)
-        - 0.002697 * np.cos(3 * g)
-        + 0.00148 * np.sin(3 * g)
-    )
-    return decl, eot
+    return _declination_eot(julian_day(date, hour_utc))
 
 
 def solar_zenith_deg(latitude_deg, longitude_deg, date, local_min, utc_offset_h=0.0) -> np.ndarray:
@@ -136,27 +179,33 @@ def solar_zenith_deg(latitude_deg, longitude_deg, date, local_min, utc_offset_h=
 
     Returns
     -------
-    ndarray
+    numpy.ndarray
         Zenith angle of the sun's centre [deg].
 
     Notes
     -----
-    NOAA GML, "General Solar Position Calculations": true solar time
+    Declination and equation of time at each instant (Meeus 1998, see
+    :func:`solar_declination_eot`); NOAA GML: true solar time
     tst = t + eqtime + 4 lon - 60 tz, hour angle ha = tst / 4 - 180,
     cos(zenith) = sin(lat) sin(decl) + cos(lat) cos(decl) cos(ha).
     """
     lat = np.radians(_check_latitude(latitude_deg))
     t = np.asarray(local_min, dtype=float)
-    hour_utc = (t / 60.0) - utc_offset_h
-    decl, eot = solar_declination_eot(date, hour_utc)
+    decl, eot = solar_declination_eot(date, t / 60.0 - utc_offset_h)
     tst = t + eot + 4.0 * float(longitude_deg) - 60.0 * utc_offset_h
     ha = np.radians(tst / 4.0 - 180.0)
     cosz = np.sin(lat) * np.sin(decl) + np.cos(lat) * np.cos(decl) * np.cos(ha)
     return np.degrees(np.arccos(np.clip(cosz, -1.0, 1.0)))
 
 
+def _cos_hour_angle(lat_rad: float, decl_rad: float) -> float:
+    """Cosine of the hour angle at which the sun's centre reaches :data:`SUNRISE_ZENITH_DEG`."""
+    return (math.cos(math.radians(SUNRISE_ZENITH_DEG)) - math.sin(lat_rad) * math.sin(decl_rad)) \
+        / (math.cos(lat_rad) * math.cos(decl_rad))
+
+
 def sun_times(latitude_deg, longitude_deg, date, utc_offset_h=0.0) -> SunTimes:
-    """Sunrise, solar noon, sunset and day length of one day.
+    """Sunrise, solar noon, sunset and day length of one local day.
 
     Parameters
     ----------
@@ -175,41 +224,44 @@ def sun_times(latitude_deg, longitude_deg, date, utc_offset_h=0.0) -> SunTimes:
 
     Notes
     -----
-    NOAA GML, "General Solar Position Calculations": sunrise/sunset hour angle
-    ha = arccos(cos(90.833) / (cos(lat) cos(decl)) - tan(lat) tan(decl)); sunrise
-    = 720 - 4 (lon + ha) - eqtime [min UTC]; solar noon = 720 - 4 lon - eqtime. The
-    declination and equation of time are evaluated at solar noon of the day.
+    NOAA GML solar calculator: solar noon = 720 - 4 lon - eqtime [min UTC]; sunrise and
+    sunset hour angle ha = arccos(cos(90.833) / (cos(lat) cos(decl)) - tan(lat) tan(decl)),
+    sunrise = noon - 4 ha, sunset = noon + 4 ha. Each event is iterated
+    (:data:`_ITERATIONS` times) with the declination and equation of time of the
+    estimated event time (Meeus 1998, see :func:`solar_declination_eot`), so the
+    declination's change through the day near the equinoxes (up to 0.4 deg per day) is
+    accounted for. Polar day or night is decided with the declination at solar noon.
     """
-    lat = float(_check_latitude(latitude_deg))
-    lon = float(longitude_deg)
-    # evaluate the series at (approximate) solar noon in UTC
-    noon_utc_h = 12.0 - lon / 15.0
-    decl, eot = solar_declination_eot(date, noon_utc_h)
-    decl, eot = float(decl), float(eot)
-    noon_min = 720.0 - 4.0 * lon - eot + 60.0 * utc_offset_h
-    latr = np.radians(lat)
-    cos_ha = np.cos(np.radians(SUNRISE_ZENITH_DEG)) / (np.cos(latr) * np.cos(decl)) - np.tan(
-        latr
-    ) * np.tan(decl)
+    lat = math.radians(float(_check_latitude(latitude_deg)))
+    lon, offset = float(longitude_deg), float(utc_offset_h)
+    day = _as_date(date)
+    jd0 = float(julian_day(day, -offset))  # local midnight as a Julian day
+
+    def state(local_min):
+        return _declination_eot(jd0 + local_min / 1440.0, math)
+
+    noon = 720.0 - 4.0 * lon + 60.0 * offset
+    for _ in range(_ITERATIONS):
+        decl, eot = state(noon)
+        noon = 720.0 - 4.0 * lon - eot + 60.0 * offset
+    cos_ha = _cos_hour_angle(lat, state(noon)[0])
     if cos_ha >= 1.0:  # polar night
-        return SunTimes(_as_date(date), np.nan, noon_min, np.nan, 0.0)
+        return SunTimes(day, math.nan, noon, math.nan, 0.0, offset)
     if cos_ha <= -1.0:  # polar day
-        return SunTimes(_as_date(date), np.nan, noon_min, np.nan, 24.0)
-    ha_deg = float(np.degrees(np.arccos(cos_ha)))
-    return SunTimes(
-        _as_date(date),
-        sunrise_min=noon_min - 4.0 * ha_deg,
-        solar_noon_min=noon_min,
-        sunset_min=noon_min + 4.0 * ha_deg,
-        day_length_h=8.0 * ha_deg / 60.0,
-    )
+        return SunTimes(day, math.nan, noon, math.nan, 24.0, offset)
+    events = []
+    for sign in (-1.0, 1.0):
+        t = noon + sign * 4.0 * math.degrees(math.acos(cos_ha))
+        for _ in range(_ITERATIONS):
+            decl, eot = state(t)
+            ha = math.degrees(math.acos(min(1.0, max(-1.0, _cos_hour_angle(lat, decl)))))
+            t = 720.0 - 4.0 * lon - eot + 60.0 * offset + sign * 4.0 * ha
+        events.append(t)
+    sunrise, sunset = events
+    return SunTimes(day, sunrise, noon, sunset, (sunset - sunrise) / 60.0, offset)
 
 
-def _as_date(date) -> dt.date:
-    return date.date() if isinstance(date, dt.datetime) else date
-
-
-def day_length_h(latitude_deg, date) -> float:
+def day_length_h(latitude_deg, date, longitude_deg=0.0) -> float:
     """Hours from sunrise to sunset (zenith 90.833 deg) at a latitude on a day.
 
     Parameters
@@ -217,7 +269,10 @@ def day_length_h(latitude_deg, date) -> float:
     latitude_deg : float
         Latitude, north positive [deg].
     date : datetime.date
-        The day.
+        The day, local solar day at ``longitude_deg``.
+    longitude_deg : float, optional
+        Longitude, east positive [deg]; the default 0 gives the day of UTC. Elsewhere the
+        length differs by at most half its change from one day to the next.
 
     Returns
     -------
@@ -226,10 +281,9 @@ def day_length_h(latitude_deg, date) -> float:
 
     Notes
     -----
-    NOAA GML "General Solar Position Calculations" (see :func:`sun_times`); the length does
-    not depend on longitude beyond the small change of declination within a day.
+    See :func:`sun_times` (NOAA GML solar calculator, Meeus 1998 solar coordinates).
     """
-    return sun_times(latitude_deg, 0.0, date).day_length_h
+    return sun_times(latitude_deg, longitude_deg, date, longitude_deg / 15.0).day_length_h
 
 
 def clear_sky_uvi(solar_zenith_deg, ozone_du=REFERENCE_OZONE_DU) -> np.ndarray:
@@ -337,9 +391,31 @@ def clear_sky_daily_dose_sed(latitude_deg, date, *, ozone_du=REFERENCE_OZONE_DU)
     return float(np.sum(erythemal_from_uv_index(day["uvi"].to_numpy())) * 60.0 / SED_J_M2)
 
 
-def sun_summary(
-    latitude_deg, longitude_deg, date, *, utc_offset_h=0.0, ozone_du=REFERENCE_OZONE_DU
-) -> dict:
+def _zone(time_zone, utc_offset_h):
+    """(tzinfo, label) for a time zone name or a fixed offset from UTC."""
+    if time_zone is not None:
+        from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+        try:
+            return ZoneInfo(time_zone), time_zone
+        except (ZoneInfoNotFoundError, ValueError):
+            raise InputError(
+                f"unknown time zone {time_zone!r}", field="time_zone",
+                hint="use an IANA name such as 'Europe/London', 'America/Denver' or 'UTC'",
+            ) from None
+    offset = dt.timedelta(hours=float(utc_offset_h or 0.0))
+    zone = dt.timezone(offset)
+    return zone, "UTC" if not offset else _offset_label(offset)
+
+
+def _offset_label(offset: dt.timedelta) -> str:
+    minutes = int(round(offset.total_seconds() / 60.0))
+    sign = "+" if minutes >= 0 else "-"
+    return f"UTC{sign}{abs(minutes) // 60:02d}:{abs(minutes) % 60:02d}"
+
+
+def sun_summary(latitude_deg, longitude_deg, date, *, utc_offset_h=None, time_zone=None,
+                ozone_du=REFERENCE_OZONE_DU) -> dict:
     """Sunrise, solar noon, sunset, day length and clear-sky UV figures of one day.
 
     Parameters
@@ -350,62 +426,50 @@ def sun_summary(
         Longitude, east positive [deg].
     date : datetime.date
         Local calendar day.
-    utc_offset_h : float
-        Local time minus UTC [h].
+    utc_offset_h : float, optional
+        Local time minus UTC [h]; default 0 (UTC). Not together with ``time_zone``.
+    time_zone : str, optional
+        IANA time zone name (``"Europe/London"``); each time gets the zone's offset at
+        that instant (summer time included), read with :mod:`zoneinfo`.
     ozone_du : float
         Total ozone column [DU].
 
     Returns
     -------
     dict
-        ``date``, ``sunrise``, ``solar_noon``, ``sunset`` (local ``"HH:MM"`` or ``""``),
-        ``day_length_h`` [h], ``peak_uvi`` [-] and ``daily_sed`` [SED] (NOAA GML solar
-        position; Madronich 2007 clear-sky UV Index).
+        ``date``, ``latitude_deg``, ``longitude_deg``, ``time_zone`` (the IANA name, ``"UTC"``
+        or ``"UTC+01:00"``), ``sunrise``, ``solar_noon``, ``sunset`` (local ``"HH:MM"``, ``""``
+        in polar day or night), the same as ISO 8601 times with their UTC offset
+        (``sunrise_iso`` ...), ``day_length_h`` [h], ``ozone_du`` [DU], ``peak_uvi`` [-]
+        and ``daily_sed`` [SED] (Meeus/NOAA solar position; Madronich 2007 clear-sky UV
+        Index).
     """
-    times = sun_times(latitude_deg, longitude_deg, date, utc_offset_h)
-    day = clear_sky_uvi_day(latitude_deg, longitude_deg, date, ozone_du=ozone_du,
-                            utc_offset_h=utc_offset_h)  # fmt: skip
-
-    def clock(minutes):
-        if not np.isfinite(minutes):
-            return ""
-        m = int(round(minutes)) % 1440
-        return f"{m // 60:02d}:{m % 60:02d}"
-
-    return {
-        "date": _as_date(date).isoformat(),
-        "latitude_deg": float(latitude_deg),
-        "longitude_deg": float(longitude_deg),
-        "sunrise": clock(times.sunrise_min),
-        "solar_noon": clock(times.solar_noon_min),
-        "sunset": clock(times.sunset_min),
-        "day_length_h": round(times.day_length_h, 4),
-        "ozone_du": float(ozone_du),
-        "peak_uvi": round(float(day["uvi"].max()), 3),
-        "daily_sed": round(clear_sky_daily_dose_sed(latitude_deg, date, ozone_du=ozone_du), 2),
-    }
-
-
-def format_sun_summary(summary: dict) -> str:
-    """Plain-text table of :func:`sun_summary` for the command line."""
-    minutes = int(round(summary["day_length_h"] * 60))
-    rows = [
-        ("date", summary["date"]),
-        ("place", f"{summary['latitude_deg']:g} deg N, {summary['longitude_deg']:g} deg E"),
-        ("sunrise", summary["sunrise"] or "none (polar day or night)"),
-        ("solar noon", summary["solar_noon"]),
-        ("sunset", summary["sunset"] or "none (polar day or night)"),
-        ("day length", f"{minutes // 60} h {minutes % 60:02d} min"),
-        (
-            "clear-sky UV Index at noon",
-            f"{summary['peak_uvi']:.1f} (ozone {summary['ozone_du']:g} DU)",
-        ),
-        ("clear-sky daily dose", f"{summary['daily_sed']:.1f} SED"),
-    ]
-    width = max(len(k) for k, _ in rows)
-    lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
-    lines.append(
-        "Sources: NOAA GML solar position; Madronich 2007 clear-sky UV Index "
-        "(no cloud, aerosol, altitude or snow)."
+    if time_zone is not None and utc_offset_h is not None:
+        raise InputError("give a time zone or a UTC offset, not both", field="time_zone",
+                         hint="a time zone name already knows its offset and summer time")
+    day = _as_date(date)
+    zone, label = _zone(time_zone, utc_offset_h)
+    offset_h = dt.datetime.combine(day, dt.time(12), tzinfo=zone).utcoffset().total_seconds() \
+        / 3600.0
+    times = sun_times(latitude_deg, longitude_deg, day, offset_h)
+    curve = clear_sky_uvi_day(latitude_deg, longitude_deg, day, ozone_du=ozone_du,
+                              utc_offset_h=offset_h)
+    midnight_utc = dt.datetime.combine(day, dt.time(0), tzinfo=dt.timezone.utc)
+    summary = {"date": day.isoformat(), "latitude_deg": float(latitude_deg),
+               "longitude_deg": float(longitude_deg), "time_zone": label}
+    for key, minutes in (("sunrise", times.sunrise_min), ("solar_noon", times.solar_noon_min),
+                         ("sunset", times.sunset_min)):
+        if not math.isfinite(minutes):
+            summary[key], summary[f"{key}_iso"] = "", ""
+            continue
+        utc_min = round(minutes - 60.0 * offset_h)
+        local = (midnight_utc + dt.timedelta(minutes=utc_min)).astimezone(zone)
+        summary[key] = local.strftime("%H:%M")
+        summary[f"{key}_iso"] = local.isoformat(timespec="minutes")
+    summary.update(
+        day_length_h=round(times.day_length_h, 4),
+        ozone_du=float(ozone_du),
+        peak_uvi=round(float(curve["uvi"].max()), 3),
+        daily_sed=round(clear_sky_daily_dose_sed(latitude_deg, day, ozone_du=ozone_du), 2),
     )
-    return "\n".join(lines)
+    return summary

@@ -31,6 +31,7 @@ from audit_lib.light.metrics import weighted_quantities
 from audit_lib.light.spectra import Spectrum, read_spectrum, read_transmittance
 from audit_lib.scene.maps import Enclosure, PlacedLamp, Screen, Surface, mesh_transmission
 from audit_lib.sources import lamps
+from audit_lib.sources.axis import scale_to_reading
 from audit_lib.sources.emitters import (
     MODEL_WAVELENGTH_NM,
     EmitterType,
@@ -122,8 +123,11 @@ def _led_positions(model):
 def build_lamp(site, model):
     """Return the physics lamp (``lamps.LedArray`` etc.) for a site lamp model record."""
     if model.kind == "led_array":
-        return lamps.LedArray(model.name, tuple(_emitter_type(e) for e in model.emitters),
-                              _led_positions(model))
+        array = lamps.LedArray(model.name, tuple(_emitter_type(e) for e in model.emitters),
+                               _led_positions(model))
+        if model.reference is not None:  # one reading of the whole fitting on its axis
+            array = scale_to_reading(array, *_reference(model.reference))
+        return array
     spectrum = model_spectrum(site, model)
     if model.kind == "from_readings":
         counts = {q: sum(getattr(r, q) is not None for r in model.distance_readings)
@@ -138,8 +142,7 @@ def build_lamp(site, model):
     spectrum = _scaled_to(spectrum, quantity, value, model.name)
     if model.kind == "tube":
         return lamps.TubeLamp(model.name, model.length_m, spectrum,
-                              reference_distance_m=distance,
-                              reflector_factor=model.reflector_factor)
+                              reference_distance_m=distance)
     return lamps.PointLamp(model.name, spectrum, reference_distance_m=distance,
                            beam_angle_deg=model.beam_angle_deg)
 

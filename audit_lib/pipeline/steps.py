@@ -23,6 +23,7 @@ from audit_lib.scene.failures import failure_scenarios, monte_carlo_failures
 from audit_lib.scene.maps import evaluate_points, surface_grid
 from audit_lib.sources.emitters import MODEL_WAVELENGTH_NM, spectral_flux
 from audit_lib.sources.lamps import LedArray
+from audit_lib.sources.safety import lamp_risk_group
 
 #: Grid of the representative points of a surface in a time budget (ny, nx).
 PLACE_SHAPE = (6, 6)
@@ -145,7 +146,9 @@ def lamp_spectra(site, record, scene):
                                 source="modelled emitters")
         if spectrum is not None:
             spectra[place.model] = spectrum
-            metrics[place.model] = spectrum_metrics(spectrum)
+            metrics[place.model] = {  # risk group: lamp model at the IEC 62471 distance
+                **spectrum_metrics(spectrum), "risk_group_missing": None,
+                **lamp_risk_group(lamp, general_lighting=model.general_lighting)}
     return spectra, metrics
 
 

@@ -297,8 +297,10 @@ def safety_table(audit) -> HTMLBlock:
         if c.id == KEEPER_EXPOSURE_TIME:
             rows.append((c.name, f"{_num(c.value, 0)} {c.unit}", _badge(c.state), c.reason))
     for model, m in audit.spectra.items():
-        rows.append((f"lamp model {model}", f"{m.get('risk_group', '')}", "",
-                     "IEC 62471 risk group (indicative) from the lamp's spectrum as modelled; "
+        distance_mm = 1000 * (m.get("risk_group_distance_m") or math.nan)
+        rows.append((f"lamp model {model}", f"{m.get('risk_group', '')} at {distance_mm:.0f} mm",
+                     "", "IEC 62471 risk group (indicative, limits from memory) of the lamp "
+                     "model on its axis at 200 mm, or at 500 lx for general lighting lamps; "
                      "a certificate needs a laboratory measurement."))
     if not rows:
         return HTMLBlock("<p>No lamps.</p>")

@@ -24,13 +24,15 @@ import json
 import os
 import re
 import time
+import warnings
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 from audit_lib import __version__
-from audit_lib.errors import AuditError, InputError
+from audit_lib.errors import AuditError, AuditWarning, InputError
+from audit_lib.history.sync import sync_site_history
 from audit_lib.pipeline.scenarios import write_scenario_site
 from audit_lib.report.index_page import render_index
 from audit_lib.run.notebooks import (
@@ -48,6 +50,7 @@ from audit_lib.run.results import (  # noqa: F401 - part of this module's interf
     results_csv,
     results_document,
 )
+from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site
 
 ENCLOSURE_WORKBOOK = WORKBOOKS_DIR / "enclosure_report.ipynb"
@@ -372,8 +375,8 @@ def _order(tasks: list[dict], site) -> list[dict]:
 
 
 def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
-              audit_date: str | None = None, overview: bool = True,
-              progress: bool = True, workbook=None, overview_workbook=None) -> BatchResult:
+              audit_date=None, overview: bool = True, progress: bool = True,
+              workbook=None, overview_workbook=None, sync_history: bool = True) -> BatchResult:
     """Audit every enclosure of a site and write the reports, index and results files.
 
     Parameters
@@ -386,8 +389,9 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         Worker processes (default: the number of CPUs, at most one per workbook).
     only : sequence of str, optional
         Enclosure ids to audit; earlier reports of the others in ``out_dir`` are kept.
-    audit_date : str, optional
-        ISO date passed to the workbooks (default: the workbooks' own default).
+    audit_date : str or datetime.date, optional
+        Date passed to the workbooks (default: the workbooks' own default); a string is
+        read with :func:`audit_lib.site.dates.parse_date` before anything starts.
     overview : bool
         Also run the site overview workbook, after the enclosures, on the run's
         ``results.json`` (so it shows the reports' figures).
@@ -396,14 +400,19 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     workbook, overview_workbook : str or PathLike, optional
         Workbooks to run instead of ``workbooks/enclosure_report.ipynb`` and
         ``workbooks/site_overview.ipynb`` (same parameters and report-data cell).
+    sync_history : bool
+        First bring ``SITE/history.sqlite`` up to date with the readings folder
+        (:func:`audit_lib.history.sync.sync_site_history`); a folder that cannot be
+        written gives a warning, not a failure.
 
     Raises
     ------
     InputErrors
         The site folder is invalid (every problem listed).
     InputError
-        An id in ``only`` is not in the site.
+        An id in ``only`` is not in the site, or ``audit_date`` is not a date.
     """
+    audit_date = parse_date(audit_date, field="audit_date").isoformat() if audit_date else None
     site_dir = Path(site_dir).resolve()
     out_dir = Path(out_dir).resolve()
     # at most one worker per workbook; the count of enclosures is known only after loading
@@ -414,6 +423,11 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     try:
         site = load_site(site_dir)
         ids = _select(site, only)
+        if sync_history:
+            try:
+                sync_site_history(site)
+            except AuditError as exc:
+                warnings.warn(str(exc), AuditWarning, stacklevel=2)
         (out_dir / REPORTS_DIR).mkdir(parents=True, exist_ok=True)
         for stale in (out_dir / REPORTS_DIR).glob(".*.part-*"):  # left by an interrupted run
             stale.unlink(missing_ok=True)
@@ -494,4 +508,5 @@ def run_scenario(site_dir, name: str, out_dir, **batch_options):
     copy, enclosure = write_scenario_site(site_dir, name,
                                           Path(out_dir) / "scenario-sites" / name)
     batch_options.setdefault("overview", False)
+    batch_options.setdefault("sync_history", False)  # the copy's history is not the site's
     return run_batch(copy, out_dir, only=[enclosure], **batch_options)

@@ -8,22 +8,34 @@ naming the file, line and field; never a traceback.
 from __future__ import annotations
 
 import argparse
+import functools
 import os
 import sys
 import warnings
 
 from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
+from audit_lib.history.sync import sync_site_history
 from audit_lib.light.metrics import format_metrics_table, spectrum_metrics
 from audit_lib.light.spectra import read_spectrum
-from audit_lib.light.sun import format_sun_summary, sun_summary
+from audit_lib.light.sun import sun_summary
 from audit_lib.pipeline.forecast import (
     format_schedule,
     import_site_readings,
     site_replacement_schedule,
 )
 from audit_lib.run.batch import run_batch, run_scenario
+from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site, new_site, summarise_site
+from audit_lib.site.schema import parse_quantity
 from audit_lib.sources.emitters import fit_line_shape
+
+
+def _date_option(text: str):
+    """Parse a date option before any work (argparse then exits 2 with the message)."""
+    try:
+        return parse_date(text)
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
 
 
 def _add_spectrum_parser(subparsers) -> None:
@@ -36,20 +48,49 @@ def _add_spectrum_parser(subparsers) -> None:
         "--unit",
         help="unit of the irradiance column if the header does not say it, e.g. 'uW/cm^2/nm'",
     )
+    p.add_argument("--distance", metavar="LENGTH",
+                   help="lamp-to-sensor distance of the measurement, e.g. '30 cm' or 0.3 (m): "
+                   "needed for the indicative IEC 62471 risk group, stated at 200 mm")
     p.add_argument("--json", action="store_true", help="print one JSON object (SI units)")
     p.set_defaults(handler=_run_spectrum)
+
+
+def _distance_m(text: str | None) -> float | None:
+    """A length from the command line: a number in metres or '<number> <unit>'."""
+    if text is None:
+        return None
+    try:
+        return float(text)
+    except ValueError:
+        pass
+    try:
+        return parse_quantity(text, "length")
+    except InputError as exc:
+        raise InputError(exc.message, field="--distance", hint="e.g. '30 cm' or 0.3") from None
+
+
+def _risk_group_note(result: dict) -> str:
+    """One line saying on what the risk group rests, or why there is none."""
+    if result["risk_group"] is None:
+        return ("note: no risk group: IEC 62471 states it at 200 mm, and the measurement "
+                "distance is unknown; give it with --distance")
+    return (f"note: risk group at 200 mm (indicative; IEC 62471 limits from memory): the "
+            f"spectrum measured at {result['measurement_distance_m']:g} m is moved to 200 mm "
+            "by the inverse-square law, an assumption that overstates extended lamps "
+            f"(E_S {result['actinic_w_m2_at_distance']:.3g} W/m², E_UVA "
+            f"{result['uva_w_m2_at_distance']:.3g} W/m² at 200 mm)")
 
 
 def _run_spectrum(args) -> int:
     import json
 
-
     spectrum = read_spectrum(args.file, unit=args.unit)
-    result = spectrum_metrics(spectrum)
+    result = spectrum_metrics(spectrum, distance_m=_distance_m(args.distance))
     if args.json:
         print(json.dumps(result, indent=2, allow_nan=False))
     else:
         print(format_metrics_table(result, title=spectrum.name))
+        print(_risk_group_note(result))
     return 0
 
 
@@ -64,13 +105,17 @@ def _add_check_parser(subparsers) -> None:
 def _run_check(args) -> int:
 
     try:
-        site = load_site(args.site)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", AuditWarning)
+            site = load_site(args.site)
     except InputErrors as exc:
         for problem in exc.problems:
             print(problem, file=sys.stderr)
         print(f"{len(exc.problems)} problem(s) found; nothing was computed", file=sys.stderr)
         return 2
-    print(summarise_site(site))
+    for warning in caught:
+        print(f"warning: {warning.message}", file=sys.stderr)
+    print(summarise_site(site) + (f"; {len(caught)} warning(s) to attend to" if caught else ""))
     return 0
 
 
@@ -95,7 +140,8 @@ def _add_run_parser(subparsers) -> None:
     p.add_argument("--out", required=True, help="output folder for reports and results")
     p.add_argument("--jobs", type=int, default=None, help="worker processes (default: CPUs)")
     p.add_argument("--only", nargs="+", metavar="ID", help="audit only these enclosure ids")
-    p.add_argument("--audit-date", help="audit date passed to the workbooks (YYYY-MM-DD)")
+    p.add_argument("--audit-date", type=_date_option,
+                   help="audit date passed to the workbooks (YYYY-MM-DD)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--scenario", metavar="NAME",
                    help="report a saved what-if scenario (SITE/scenarios/NAME.toml) instead")
@@ -146,7 +192,8 @@ def _add_forecast_parser(subparsers) -> None:
     )
     p.add_argument("site", help="the site folder (holding site.toml)")
     p.add_argument("--db", help="history database (default: SITE/history.sqlite)")
-    p.add_argument("--date", help="day of the schedule, YYYY-MM-DD (default: today)")
+    p.add_argument("--date", type=_date_option,
+                   help="day of the schedule, YYYY-MM-DD (default: today)")
     p.add_argument("--target-uvi", type=float,
                    help="one basking UV Index threshold for all lamps (default: zone ranges)")
     p.add_argument("--csv", help="also write the schedule to this CSV file")
@@ -156,11 +203,8 @@ def _add_forecast_parser(subparsers) -> None:
 
 
 def _run_forecast(args) -> int:
-    import datetime as dt
-
-
-    today = dt.date.fromisoformat(args.date) if args.date else None
-    table = site_replacement_schedule(args.site, db_path=args.db, today=today,
+    sync_site_history(load_site(args.site, today=args.date), args.db)  # readings folder -> DB
+    table = site_replacement_schedule(args.site, db_path=args.db, today=args.date,
                                       target_uvi=args.target_uvi, correct_meters=not args.raw)
     print(format_schedule(table))
     if args.csv:
@@ -174,28 +218,61 @@ def _add_sun_parser(subparsers) -> None:
     )
     p.add_argument("--latitude", type=float, required=True, help="degrees, north positive")
     p.add_argument("--longitude", type=float, default=0.0, help="degrees, east positive")
-    p.add_argument("--date", required=True, help="the day, YYYY-MM-DD")
-    p.add_argument("--utc-offset", type=float, default=0.0,
-                   help="local time minus UTC in hours, e.g. 1 for summer time in London")
+    p.add_argument("--date", type=_date_option, required=True, help="the day, YYYY-MM-DD")
+    p.add_argument("--utc-offset", type=float, default=None,
+                   help="local time minus UTC in hours, e.g. 1 for summer time in London "
+                   "(default: times in UTC)")
+    p.add_argument("--time-zone", default=None, metavar="NAME",
+                   help="IANA time zone, e.g. Europe/London: local times with summer time "
+                   "(instead of --utc-offset)")
     p.add_argument("--ozone", type=float, default=300.0, help="total ozone column [DU]")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(handler=_run_sun)
 
 
 def _run_sun(args) -> int:
-    import datetime as dt
     import json
 
 
-    try:
-        day = dt.date.fromisoformat(args.date)
-    except ValueError:
-        raise InputError(f"{args.date!r} is not a date", field="--date",
-                         hint="write it as YYYY-MM-DD") from None
-    summary = sun_summary(args.latitude, args.longitude, day, utc_offset_h=args.utc_offset,
-                          ozone_du=args.ozone)
+    summary = sun_summary(args.latitude, args.longitude, args.date, utc_offset_h=args.utc_offset,
+                          time_zone=args.time_zone, ozone_du=args.ozone)
     print(json.dumps(summary, indent=2) if args.json else format_sun_summary(summary))
     return 0
+
+
+def _clock_with_zone(summary: dict, key: str) -> str:
+    """``"06:12 Europe/London (UTC+01:00)"``, ``"06:12 UTC"`` or the polar-day text."""
+    if not summary[key]:
+        return "none (polar day or night)"
+    stamp = summary[f"{key}_iso"]
+    offset = "UTC" + stamp[-6:] if stamp[-6] in "+-" else "UTC"
+    zone = summary["time_zone"]
+    if zone.startswith("UTC"):
+        return f"{summary[key]} {zone}"
+    return f"{summary[key]} {zone} ({offset})"
+
+
+def format_sun_summary(summary: dict) -> str:
+    """Plain-text table of :func:`audit_lib.light.sun.sun_summary` for the command line."""
+    minutes = int(round(summary["day_length_h"] * 60))
+    rows = [
+        ("date", summary["date"]),
+        ("place", f"{summary['latitude_deg']:g} deg N, {summary['longitude_deg']:g} deg E"),
+        ("sunrise", _clock_with_zone(summary, "sunrise")),
+        ("solar noon", _clock_with_zone(summary, "solar_noon")),
+        ("sunset", _clock_with_zone(summary, "sunset")),
+        ("day length", f"{minutes // 60} h {minutes % 60:02d} min"),
+        ("clear-sky UV Index at noon",
+         f"{summary['peak_uvi']:.1f} (ozone {summary['ozone_du']:g} DU)"),
+        ("clear-sky daily dose", f"{summary['daily_sed']:.1f} SED"),
+    ]
+    width = max(len(k) for k, _ in rows)
+    lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
+    lines.append(
+        "Sources: solar position from the Meeus/NOAA solar equations (within a minute of "
+        "NREL SPA); Madronich 2007 clear-sky UV Index (no cloud, aerosol, altitude or snow)."
+    )
+    return "\n".join(lines)
 
 
 def _add_fit_emitter_parser(subparsers) -> None:
@@ -205,8 +282,8 @@ def _add_fit_emitter_parser(subparsers) -> None:
     )
     p.add_argument("file", help="spectrum file (CSV, TSV or TXT): wavelength [nm] and irradiance")
     p.add_argument("--unit", help="irradiance unit if the header does not say it")
-    p.add_argument("--shape", default="lorentzian",
-                   help="lorentzian, gaussian, sigmoid_lorentzian or sigmoid_gaussian")
+    p.add_argument("--shape", default="gaussian",
+                   help="gaussian (default), lorentzian, sigmoid_gaussian or sigmoid_lorentzian")
     p.add_argument("--from-nm", type=float, default=250.0, help="start of the fitted range [nm]")
     p.add_argument("--to-nm", type=float, default=420.0, help="end of the fitted range [nm]")
     p.add_argument("--json", action="store_true", help="print one JSON object")
@@ -247,16 +324,23 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    print(f"warning: {message}", file=sys.stderr)
+def _show_warning(message, category, filename, lineno, file=None, line=None, *,
+                  shown: set) -> None:
+    text = f"warning: {message}"
+    if text not in shown:  # a site loaded twice (e.g. sync, then forecast) warns once
+        shown.add(text)
+        print(text, file=sys.stderr)
 
 
 def main(argv: list[str] | None = None) -> int:
     """Run ``light-audit``; return the exit status (2 for bad input)."""
-    args = build_parser().parse_args(argv)
+    try:
+        args = build_parser().parse_args(argv)
+    except SystemExit as exc:  # usage errors (2, bad dates included) and --help (0)
+        return int(exc.code or 0)
     with warnings.catch_warnings():
         warnings.simplefilter("always", AuditWarning)
-        warnings.showwarning = _show_warning
+        warnings.showwarning = functools.partial(_show_warning, shown=set())
         try:
             return int(args.handler(args) or 0)
         except (InputError, InputErrors) as exc:

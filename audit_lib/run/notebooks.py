@@ -14,12 +14,11 @@ Sources: papermill's engine interface (``papermill.engines.NBClientEngine``) and
 from __future__ import annotations
 
 import base64
-import mimetypes
 import os
 from pathlib import Path
 
-from audit_lib.errors import AuditError
 from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE
+from audit_lib.site.files import read_logo
 
 #: Cells with these tags never show in a report.
 HIDDEN_TAGS = ("parameters", "injected-parameters", "report-data", "hide-in-report")
@@ -48,7 +47,6 @@ def _audit_clear():
 
 _audit_clear()  # it removes its own name too
 """
-_LOGO_MAX_BYTES = 2_000_000
 
 
 def make_exporter():
@@ -102,13 +100,7 @@ def logo_data_uri(path: str | os.PathLike | None) -> str:
     """
     if not path:
         return ""
-    path = Path(path)
-    mime = mimetypes.guess_type(path.name)[0] or ""
-    if mime not in ("image/png", "image/jpeg", "image/gif", "image/svg+xml"):
-        raise AuditError(f"{path}: logo must be a PNG, JPEG, GIF or SVG image, not {mime!r}")
-    data = path.read_bytes()
-    if len(data) > _LOGO_MAX_BYTES:
-        raise AuditError(f"{path}: logo is {len(data)} bytes; the limit is {_LOGO_MAX_BYTES}")
+    mime, data = read_logo(path)  # the reader `light-audit check` uses
     return f"data:{mime};base64,{base64.b64encode(data).decode('ascii')}"
 
 

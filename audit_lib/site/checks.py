@@ -32,6 +32,11 @@ METER_QUANTITIES = {
     "uva_meter": ("uva_w_m2",),
     "lux_meter": ("illuminance_lux",),
 }
+#: How far above the enclosure's top a lamp may hang: a fitting resting on a mesh lid or
+#: hung just above it [m] (project default).
+LAMP_ABOVE_TOP_MAX_M = 0.3
+
+
 def _duplicates(items, prefix: str, path: Path, lines: dict, what: str) -> list[InputError]:
     seen, problems = {}, []
     for i, item in enumerate(items):
@@ -58,21 +63,6 @@ def _missing_ref(value, known, field, what, path, lines, line=None) -> InputErro
     line = line if line is not None else line_of(field, lines)
     return InputError(f"no {what} with id {value!r}", path=path, line=line, field=field,
                       hint=hint)
-
-
-def _file_problem(root: Path, name: str | None, field: str, path: Path, lines: dict):
-    if name is None:
-        return []
-    target = (root / name).resolve()
-    if root.resolve() not in target.parents:
-        return [InputError(f"file {name!r} lies outside the site folder", path=path,
-                           line=line_of(field, lines), field=field,
-                           hint="give a path relative to the site folder, without '..'")]
-    if not target.is_file():
-        return [InputError(f"file {name!r} does not exist", path=path,
-                           line=line_of(field, lines), field=field,
-                           hint="paths are relative to the site folder")]
-    return []
 
 
 def partial_site(data) -> tuple[SiteFile, dict[str, set[str]]]:
@@ -109,10 +99,12 @@ def partial_site(data) -> tuple[SiteFile, dict[str, set[str]]]:
     return SiteFile.model_construct(format_version=1, site=info, **kept), dropped
 
 
-def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int],
+def cross_problems(site: SiteFile, path: Path, lines: dict[str, int],
                    known_species: set[str], today: dt.date,
                    dropped: dict[str, set[str]] | None = None) -> list[InputError]:
-    """Check references between records, referenced files and dates; return every problem.
+    """Check references between records, geometry and dates; return every problem.
+
+    The files the site names are checked by :func:`audit_lib.site.files.file_problems`.
 
     ``dropped`` holds ids of items that failed the schema (see :func:`partial_site`):
     references to them are not reported a second time.
@@ -127,8 +119,6 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
     models = {m.id for m in _live(site.lamp_models)} | dropped.get("lamp_models", set())
     schedules = {s.id for s in _live(site.schedules)} | dropped.get("schedules", set())
     species = known_species | {s.id for s in _live(site.species)} | dropped.get("species", set())
-    if site.site is not None:
-        p += _file_problem(root, site.site.logo, "site.logo", path, lines)
 
     def future(value, field, what):
         if value is not None and value > today:
@@ -140,12 +130,9 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
         if meter is None:
             continue
         future(meter.calibration_date, f"meters[{i}].calibration_date", "calibration date")
-        p += _file_problem(root, meter.spectral_response, f"meters[{i}].spectral_response",
-                           path, lines)
     for i, model in enumerate(site.lamp_models):
         if model is None:
             continue
-        p += _file_problem(root, model.spectrum, f"lamp_models[{i}].spectrum", path, lines)
         if model.kind == "led_array":
             p += _duplicates(model.emitters, f"lamp_models[{i}].emitters", path, lines, "emitter")
             types = {e.id for e in model.emitters}
@@ -163,15 +150,17 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
         if enc is None:
             continue
         e = f"enclosures[{i}]"
+        if enc.id in s.RESERVED_IDS:
+            p.append(InputError(f"enclosure id {enc.id!r} is reserved for the batch run's own "
+                                "pages", path=path, line=line_of(f"{e}.id", lines),
+                                field=f"{e}.id", hint="choose another id; reserved: "
+                                + ", ".join(s.RESERVED_IDS)))
         for j, sp in enumerate(enc.species):
             if sp not in species:
                 p.append(_missing_ref(sp, species, f"{e}.species[{j}]", "species", path, lines))
         for key in ("surfaces", "lamps", "screens", "positions"):
             p += _duplicates(getattr(enc, key), f"{e}.{key}", path, lines, key.rstrip("s"))
         screens = {s.id for s in enc.screens}
-        for j, screen in enumerate(enc.screens):
-            p += _file_problem(root, screen.transmission_spectrum,
-                               f"{e}.screens[{j}].transmission_spectrum", path, lines)
         for j, lamp in enumerate(enc.lamps):
             lf = f"{e}.lamps[{j}]"
             if lamp.model not in models:
@@ -196,21 +185,7 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
                     p.append(_missing_ref(sid, screens, f"{lf}.screens[{k}]", "screen", path,
                                           lines))
             future(lamp.installed, f"{lf}.installed", "install date")
-            if not (0 <= lamp.x_m <= enc.width_m and 0 <= lamp.y_m <= enc.depth_m):
-                p.append(InputError("lamp lies outside the enclosure's floor plan", path=path,
-                                    line=line_of(f"{lf}.x_m", lines), field=lf,
-                                    hint=f"x_m in 0..{enc.width_m}, y_m in 0..{enc.depth_m}"))
-        for j, item in enumerate(enc.surfaces + enc.positions):
-            key = "surfaces" if j < len(enc.surfaces) else "positions"
-            k = j if j < len(enc.surfaces) else j - len(enc.surfaces)
-            far_x = item.x_m + getattr(item, "width_m", 0.0)
-            far_y = item.y_m + getattr(item, "depth_m", 0.0)
-            if far_x > enc.width_m + 1e-9 or far_y > enc.depth_m + 1e-9 or item.z_m > enc.height_m:
-                p.append(InputError(f"{key.rstrip('s')} {item.id!r} lies outside the enclosure",
-                                    path=path, line=line_of(f"{e}.{key}[{k}]", lines),
-                                    field=f"{e}.{key}[{k}]",
-                                    hint=f"box is {enc.width_m} x {enc.depth_m} x "
-                                         f"{enc.height_m} m (width x depth x height)"))
+        p += _geometry_problems(enc, e, path, lines)
         places = {"floor"} | {s.id for s in enc.surfaces} | {q.id for q in enc.positions}
         for name in enc.time_budget:
             if name not in places:
@@ -221,6 +196,50 @@ def cross_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
                                 line=line_of(f"{e}.time_budget", lines),
                                 field=f"{e}.time_budget",
                                 hint="shares are fractions of the active day"))
+    return p
+
+
+def _geometry_problems(enc, e: str, path: Path, lines: dict) -> list[InputError]:
+    """Lamps, surfaces and positions inside the enclosure; lamps above the basking surfaces.
+
+    A lamp hangs inside the box or on its top (up to :data:`LAMP_ABOVE_TOP_MAX_M` above
+    ``height_m``). Every lamp must hang higher than every basking surface of its enclosure:
+    a source at or below a horizontal surface's plane cannot light its top (the incidence
+    cosine is zero or negative), so the audit would silently report UVI 0 there.
+    """
+    p = []
+    box = (f"box is {enc.width_m:g} x {enc.depth_m:g} x {enc.height_m:g} m "
+           "(width x depth x height)")
+    for j, lamp in enumerate(enc.lamps):
+        lf = f"{e}.lamps[{j}]"
+
+        def problem(message, key, hint, lf=lf):
+            p.append(InputError(message, path=path, line=line_of(f"{lf}.{key}", lines),
+                                field=f"{lf}.{key}", hint=hint))
+
+        if not (0 <= lamp.x_m <= enc.width_m and 0 <= lamp.y_m <= enc.depth_m):
+            problem(f"lamp {lamp.id!r} lies outside the enclosure's floor plan", "x_m",
+                    f"x_m in 0..{enc.width_m:g}, y_m in 0..{enc.depth_m:g}")
+        if lamp.z_m <= 0:
+            problem(f"lamp {lamp.id!r} is mounted at {lamp.z_m:g} m, at or below the floor",
+                    "z_m", "z_m is the lamp's height above the enclosure floor")
+        elif lamp.z_m > enc.height_m + LAMP_ABOVE_TOP_MAX_M:
+            problem(f"lamp {lamp.id!r} is mounted at {lamp.z_m:g} m, more than "
+                    f"{LAMP_ABOVE_TOP_MAX_M:g} m above the enclosure's top",
+                    "z_m", f"{box}; for an open-top enclosure give height_m up to the lamps")
+        for surface in enc.surfaces:
+            if surface.kind == "basking" and 0 < lamp.z_m <= surface.z_m:
+                problem(f"lamp {lamp.id!r} at {lamp.z_m:g} m is not above basking surface "
+                        f"{surface.id!r} at {surface.z_m:g} m: it cannot light its top", "z_m",
+                        "z_m is the height above the floor, not the distance to the surface")
+    for key in ("surfaces", "positions"):
+        for k, item in enumerate(getattr(enc, key)):
+            far_x = item.x_m + getattr(item, "width_m", 0.0)
+            far_y = item.y_m + getattr(item, "depth_m", 0.0)
+            if far_x > enc.width_m + 1e-9 or far_y > enc.depth_m + 1e-9 or item.z_m > enc.height_m:
+                p.append(InputError(f"{key.rstrip('s')} {item.id!r} lies outside the enclosure",
+                                    path=path, line=line_of(f"{e}.{key}[{k}]", lines),
+                                    field=f"{e}.{key}[{k}]", hint=box))
     return p
 
 

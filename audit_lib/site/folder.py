@@ -26,14 +26,14 @@ except ModuleNotFoundError:  # pragma: no cover - Python 3.10
 
 from audit_lib.errors import AuditWarning, InputError, InputErrors
 from audit_lib.judge.targets import read_species_table
-from audit_lib.light.spectra import read_spectrum
 from audit_lib.site.checks import (
     calibration_warnings,
     cross_problems,
     partial_site,
     readings_problems,
 )
-from audit_lib.site.messages import line_of, locate_keys, schema_problems
+from audit_lib.site.files import file_problems
+from audit_lib.site.messages import locate_keys, schema_problems
 from audit_lib.site.readings import (
     _as_frame,
     read_readings,
@@ -51,7 +51,12 @@ from audit_lib.site.schema import (
     Species,
     TubeModel,
 )
-from audit_lib.site.template import STARTER_READINGS_CSV, STARTER_SITE_TOML
+from audit_lib.site.template import (
+    EXAMPLE_READINGS,
+    STARTER_READINGS_CSV,
+    STARTER_SITE_TOML,
+    placeholder_problems,
+)
 
 SITE_FILE = "site.toml"
 
@@ -131,22 +136,6 @@ def _library_species() -> set[str]:
     return set(read_species_table()["id"].astype(str))
 
 
-def _spectrum_problems(records: SiteFile, root: Path, path: Path, lines) -> list[InputError]:
-
-    problems = []
-    files = [(f"lamp_models[{i}].spectrum", m.spectrum)
-             for i, m in enumerate(records.lamp_models) if m is not None and m.spectrum]
-    for key, name in files:
-        if not (root / name).is_file() or name.lower().endswith(".xlsx"):
-            continue  # reported by the file check
-        try:
-            read_spectrum(root / name)
-        except InputError as exc:
-            problems.append(InputError(f"cannot read spectrum: {exc}", path=path,
-                                       line=line_of(key, lines), field=key, hint=exc.hint))
-    return problems
-
-
 def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, list[InputError]]:
     from pydantic import ValidationError
 
@@ -179,9 +168,8 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
         problems = schema_problems(exc, toml_path, lines)
         records = None
         checked, dropped = partial_site(data)
-    problems += cross_problems(checked, root, toml_path, lines, _library_species(), today,
-                               dropped)
-    problems += _spectrum_problems(checked, root, toml_path, lines)
+    problems += cross_problems(checked, toml_path, lines, _library_species(), today, dropped)
+    problems += file_problems(checked, root, toml_path, lines)
     frames = []
     for file in readings_files(root / "readings"):
         frame, found = read_readings_with_problems(file)
@@ -191,7 +179,9 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     problems += readings_problems(readings, checked, root, today, dropped)
     if problems or records is None:
         return None, problems
-    for text in calibration_warnings(readings, records):
+    notes = calibration_warnings(readings, records)
+    notes += [str(p) for p in placeholder_problems(records, root, toml_path, lines)]
+    for text in notes:
         warnings.warn(text, SiteWarning, stacklevel=3)
     return Site(root=root, records=records, readings=readings), []
 
@@ -291,7 +281,7 @@ def new_site(path: str | PathLike) -> Path:
                          hint="choose an empty or new folder")
     (root / "readings").mkdir(parents=True, exist_ok=True)
     (root / "spectra").mkdir(exist_ok=True)
-    (root / "readings" / "first-audit.csv").write_text(STARTER_READINGS_CSV, encoding="utf-8")
+    (root / "readings" / EXAMPLE_READINGS).write_text(STARTER_READINGS_CSV, encoding="utf-8")
     (root / SITE_FILE).write_text(STARTER_SITE_TOML, encoding="utf-8")
     return root / SITE_FILE
 

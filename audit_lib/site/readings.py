@@ -23,6 +23,7 @@ import pandas as pd
 
 from audit_lib.errors import InputError, InputErrors
 from audit_lib.light.units import to_si
+from audit_lib.site.dates import parse_date
 
 COLUMNS = (
     "date", "enclosure", "lamp", "position", "x_m", "y_m", "z_m", "distance_m", "quantity",
@@ -43,12 +44,22 @@ ALIASES = {
     "illuminance": "illuminance_lux", "lux": "illuminance_lux",
 }
 UVI_UNITS = ("", "uvi", "index", "-")
-_ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}([ T]00:00(:00)?)?$")
 
 
-def _read_table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]], int]:
-    """Return the header, the data rows with their 1-based line numbers, and the header line."""
+#: Column separators of a readings text file; the header's column names tell which one.
+SEPARATORS = (",", ";", "\t")
+#: Columns that hold numbers (decimal commas are read in files not separated by commas).
+NUMBER_COLUMNS = ("x_m", "y_m", "z_m", "distance_m", "value")
+_DECIMAL_COMMA = re.compile(r"^[-+]?\d*,\d+$")
+
+
+def _read_table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]], int, str]:
+    """Return header, data rows (with 1-based line numbers), header line and separator.
+
+    The separator is ``""`` for a spreadsheet.
+    """
     suffix = path.suffix.lower()
+    separator = ""
     if suffix == ".xlsx":
         from openpyxl import load_workbook
 
@@ -58,18 +69,56 @@ def _read_table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]], int
                 for i, row in enumerate(sheet.iter_rows(values_only=True), start=1)]
         book.close()
     elif suffix in (".csv", ".txt", ".tsv"):
-        text = path.read_text(encoding="utf-8-sig")
-        delimiter = "\t" if suffix == ".tsv" else ","
-        rows = list(enumerate(csv.reader(io.StringIO(text), delimiter=delimiter), start=1))
+        text = _decode(path.read_bytes())
+        separator = "\t" if suffix == ".tsv" else _sniff_separator(text)
+        rows = list(enumerate(csv.reader(io.StringIO(text), delimiter=separator), start=1))
     else:
         raise InputError("readings must be .csv, .tsv or .xlsx", path=path,
                          hint="export the sheet as CSV or save it as .xlsx")
     rows = [(i, [c.strip() for c in r]) for i, r in rows
             if any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
     if not rows:
-        return [], [], 1
+        return [], [], 1, separator
     (header_line, header), data = rows[0], rows[1:]
-    return [h.lower() for h in header], data, header_line
+    return [h.lower() for h in header], data, header_line, separator
+
+
+def _decode(raw: bytes) -> str:
+    """UTF-8 text (with or without a byte-order mark), else Windows-1252.
+
+    Spreadsheets on Western-European Windows save "CSV" in Windows-1252 (``µW/cm²`` as the
+    bytes B5 and B2); a file that is valid UTF-8 is always read as UTF-8.
+    """
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        try:
+            return raw.decode("cp1252")
+        except UnicodeDecodeError:
+            raise exc from None
+
+
+def _sniff_separator(text: str) -> str:
+    """The separator that splits the header into the most known column names (ties: comma)."""
+    header = next((line for line in text.splitlines()
+                   if line.strip() and not line.lstrip().startswith("#")), "")
+    known = set(REQUIRED + OPTIONAL)
+
+    def known_columns(separator: str) -> int:
+        cells = next(csv.reader([header], delimiter=separator), [])
+        return sum(cell.strip().lower() in known for cell in cells)
+
+    return max(SEPARATORS, key=known_columns)
+
+
+def _decimal_mark(header: list[str], data: list, separator: str) -> str:
+    """``","`` when a file not separated by commas writes its numbers with decimal commas."""
+    if separator in ("", ","):
+        return "."
+    columns = [i for i, name in enumerate(header) if name in NUMBER_COLUMNS]
+    found = any(_DECIMAL_COMMA.match(cells[i]) for _, cells in data for i in columns
+                if i < len(cells))
+    return "," if found else "."
 
 
 def _cell_text(value) -> str:
@@ -81,30 +130,35 @@ def _cell_text(value) -> str:
     return str(value)
 
 
-def _number(text: str, *, where: dict, column: str, problems: list) -> float:
+def _number(text: str, *, where: dict, column: str, problems: list, decimal: str = ".") -> float:
     text = str(text).strip()
     if text == "":
         return math.nan
+    if decimal == ",":
+        if "." in text:
+            problems.append(InputError(
+                f"{text!r} has a point in a file written with decimal commas", field=column,
+                **where, hint="write numbers without thousands separators, e.g. 12500 or 2,5"))
+            return math.nan
+        text = text.replace(",", ".")
     try:
         return float(text)
     except ValueError:
+        hint = "write a plain number" + (" with a decimal comma" if decimal == "," else
+                                         " with a decimal point")
         problems.append(InputError(f"{text!r} is not a number", field=column, **where,
-                                   hint="write a plain number with a decimal point"))
+                                   hint=hint))
         return math.nan
 
 
-def _convert_row(raw: dict, where: dict, problems: list) -> dict | None:
+def _convert_row(raw: dict, where: dict, problems: list, decimal: str = ".") -> dict | None:
 
     before = len(problems)
     row = {k: str(raw.get(k, "")).strip() for k in REQUIRED + OPTIONAL}
     try:
-        if not _ISO_DATE.match(row["date"]):
-            raise ValueError
-        date = pd.Timestamp(row["date"][:10]).normalize()
-    except (ValueError, TypeError):
-        problems.append(InputError(f"{row['date']!r} is not a date in YYYY-MM-DD form",
-                                   field="date", **where,
-                                   hint="write dates as YYYY-MM-DD (12/03/2026 is ambiguous)"))
+        date = pd.Timestamp(parse_date(row["date"]))
+    except InputError as exc:
+        problems.append(InputError(exc.message, field="date", **where, hint=exc.hint))
         date = pd.NaT
     for column in ("enclosure",):
         if not row[column]:
@@ -115,10 +169,11 @@ def _convert_row(raw: dict, where: dict, problems: list) -> dict | None:
         problems.append(InputError(
             f"unknown quantity {row['quantity']!r}", field="quantity", **where,
             hint="use one of " + ", ".join(QUANTITIES)))
-    value = _number(row["value"], where=where, column="value", problems=problems)
+    value = _number(row["value"], where=where, column="value", problems=problems,
+                    decimal=decimal)
     if row["value"].strip() == "":
         problems.append(InputError("is empty", field="value", **where, hint="give the reading"))
-    coords = {c: _number(row[c], where=where, column=c, problems=problems)
+    coords = {c: _number(row[c], where=where, column=c, problems=problems, decimal=decimal)
               for c in ("x_m", "y_m", "z_m", "distance_m")}
     value_si = math.nan
     if quantity in QUANTITIES and not math.isnan(value):
@@ -157,14 +212,19 @@ def read_readings_with_problems(path: str | PathLike) -> tuple[pd.DataFrame, lis
     """
     path = Path(path)
     try:
-        header, data, header_line = _read_table(path)
+        header, data, header_line, separator = _read_table(path)
     except InputError as exc:
         return _as_frame([]), [exc]
     except (OSError, UnicodeDecodeError, ValueError, KeyError, zipfile.BadZipFile) as exc:
         return _as_frame([]), [InputError(f"cannot read the file: {exc}", path=path,
                                           hint="save it again as UTF-8 CSV or .xlsx")]
-    problems: list[InputError] = []
     missing = [c for c in REQUIRED if c not in header]
+    if missing and len(header) <= 1:  # one problem, not one per column
+        return _as_frame([]), [InputError(
+            f"the header {header[0] if header else ''!r} is not split into columns", path=path,
+            line=header_line, hint="separate the columns with commas, semicolons or tabs; "
+            "required columns: " + ", ".join(REQUIRED))]
+    problems: list[InputError] = []
     unknown = [c for c in header if c not in REQUIRED + OPTIONAL]
     for column in missing:
         problems.append(InputError(f"missing column {column!r}", path=path, line=header_line,
@@ -173,15 +233,19 @@ def read_readings_with_problems(path: str | PathLike) -> tuple[pd.DataFrame, lis
         problems.append(InputError(f"unknown column {column!r}", path=path, line=header_line,
                                    hint="allowed columns: " + ", ".join(REQUIRED + OPTIONAL)))
     rows = []
+    decimal = _decimal_mark(header, data, separator)
+    sep_name = {"\t": "tabs", ";": "semicolons"}.get(separator, "commas")
     if not missing:
         for line, cells in data:
             if len(cells) != len(header):
                 problems.append(InputError(
                     f"{len(cells)} fields where the header has {len(header)}", path=path,
-                    line=line, hint="quote notes that contain commas: \"like, this\""))
+                    line=line, hint=f"columns are separated by {sep_name}; quote notes that "
+                                    "contain one: \"like; this\""
+                    if separator == ";" else "quote notes that contain commas: \"like, this\""))
                 continue
             row = _convert_row(dict(zip(header, cells, strict=True)),
-                               {"path": path, "line": line}, problems)
+                               {"path": path, "line": line}, problems, decimal)
             if row is not None:
                 rows.append({**row, "source_file": path.name, "source_line": line})
     return _as_frame(rows), problems

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import datetime as dt
 import re
+import warnings
 from typing import Annotated, Literal
 
 from pydantic import (
@@ -22,11 +23,14 @@ from pydantic import (
     model_validator,
 )
 
-from audit_lib.errors import InputError
+from audit_lib.errors import AuditWarning, InputError
 from audit_lib.light.units import to_si
 
 FORMAT_VERSION = 1
 ID_PATTERN = r"^[a-z0-9][a-z0-9_-]*$"
+#: Names the batch run gives its own pages and files; an enclosure id (which becomes a
+#: report's file name and a key in results.json) may not take one of them.
+RESERVED_IDS = ("site-overview", "index", "results", "reports", "scenario-sites")
 
 Id = Annotated[str, StringConstraints(pattern=ID_PATTERN, max_length=64)]
 Clock = Annotated[str, StringConstraints(pattern=r"^([01]\d|2[0-3]):[0-5]\d$")]
@@ -41,6 +45,10 @@ UNIT_SUFFIXES = {
     "_m": "length",
     "_s": "time",
 }
+
+class IgnoredKeyWarning(AuditWarning):
+    """A site file gives a key that is accepted for older files but no longer used."""
+
 
 _QUANTITY = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.+?)\s*$")
 
@@ -179,23 +187,28 @@ class Reference(Record):
 
 
 class EmitterType(Record):
-    """One kind of LED emitter in an array: its line, phosphor bands, beam and output."""
+    """One kind of LED emitter in an array: its line, phosphor bands, beam and output.
+
+    ``reference`` here is a reading of ONE emitter on its own axis; a reading of the whole
+    fitting goes in the lamp model's ``reference`` (see :class:`LedArrayModel`).
+    """
 
     id: Id
     name: str = ""
     peak_nm: float = Field(ge=200, le=1100)
     fwhm_nm: Positive
     asymmetry: Positive = 1.0
-    shape: Literal["lorentzian", "gaussian"] = "lorentzian"
+    shape: Literal["lorentzian", "gaussian"] = "gaussian"
     phosphors: list[Band] = []
     beam_angle_deg: float = Field(default=120.0, gt=0, le=180)
     flux_w: Positive | None = None
     reference: Reference | None = None
 
     @model_validator(mode="after")
-    def _one_output(self):
-        if (self.flux_w is None) == (self.reference is None):
-            raise ValueError("give the emitter's output as flux_w or as a reference table")
+    def _at_most_one_output(self):
+        if self.flux_w is not None and self.reference is not None:
+            raise ValueError(f"emitter {self.id!r}: give its output as flux_w or as a "
+                             "reference table, not both")
         return self
 
 
@@ -220,7 +233,13 @@ class EmitterGrid(Record):
 
 
 class LedArrayModel(Record):
-    """An LED array: emitter types and their layout (explicit places or a grid)."""
+    """An LED array: emitter types and their layout (explicit places or a grid).
+
+    Output: either each emitter type gives its own (``flux_w``, or ``reference`` = one
+    emitter on its own axis), or the model gives ``reference`` = the whole fitting, every
+    emitter lit, on the fitting's axis. With a whole-fitting reference and several emitter
+    types, the types' own outputs still set their ratio; a single type needs none.
+    """
 
     kind: Literal["led_array"]
     id: Id
@@ -229,6 +248,8 @@ class LedArrayModel(Record):
     layout: list[EmitterPlace] = []
     grids: list[EmitterGrid] = []
     spectrum: str | None = None
+    reference: Reference | None = None
+    general_lighting: bool = False
     note: str = ""
 
     @model_validator(mode="after")
@@ -237,19 +258,49 @@ class LedArrayModel(Record):
             raise ValueError("an LED array needs a layout (emitter places) or grids")
         return self
 
+    @model_validator(mode="after")
+    def _outputs(self):
+        missing = [e.id for e in self.emitters if e.flux_w is None and e.reference is None]
+        if self.reference is None and missing:
+            raise ValueError(
+                f"emitter(s) {', '.join(missing)} give no output || give each emitter type "
+                "flux_w or a reference (one emitter), or give the lamp model a reference "
+                "(the whole fitting)")
+        if self.reference is not None and missing and len(self.emitters) > 1:
+            raise ValueError(
+                f"emitter(s) {', '.join(missing)} give no output || with several emitter "
+                "types the whole-fitting reference needs each type's flux_w or reference "
+                "for their ratio")
+        return self
+
 
 class TubeModel(Record):
-    """A linear fluorescent tube: a finite line source with a reflector factor."""
+    """A linear fluorescent tube: a finite line source known from a reading below its middle.
+
+    ``reflector_factor`` is no longer used: the reference reading, taken under the fitting,
+    already holds the reflector's gain. The key is still accepted so that older site files
+    load, with a note saying it is ignored.
+    """
 
     kind: Literal["tube"]
     id: Id
     name: str = Field(min_length=1)
     length_m: Positive
-    reflector_factor: Positive = 1.0
+    reflector_factor: Positive | None = None
     bands: list[Band] = []
     spectrum: str | None = None
     reference: Reference
+    general_lighting: bool = False
     note: str = ""
+
+    @model_validator(mode="after")
+    def _reflector_is_in_the_reading(self):
+        if self.reflector_factor is not None:
+            warnings.warn(
+                f"lamp model {self.id!r}: reflector_factor is ignored (no longer used): the "
+                "reference reading under the fitting already includes the reflector; "
+                "delete the key", IgnoredKeyWarning, stacklevel=2)
+        return self
 
 
 class PointLampModel(Record):
@@ -262,6 +313,7 @@ class PointLampModel(Record):
     bands: list[Band] = []
     spectrum: str | None = None
     reference: Reference
+    general_lighting: bool = False
     note: str = ""
 
 
@@ -283,6 +335,7 @@ class MeasuredLampModel(Record):
     distance_readings: list[DistanceReading] = Field(min_length=2)
     bands: list[Band] = []
     spectrum: str | None = None
+    general_lighting: bool = False
     note: str = ""
 
 

@@ -1,4 +1,27 @@
-"""The commented starting folder that ``light-audit new-site DIR`` writes."""
+"""The commented starting folder that ``light-audit new-site DIR`` writes, and its placeholders.
+
+A new folder is valid, so that ``check`` and ``run`` work at once, but it is an example:
+:func:`placeholder_problems` names what is still the starter's (site name, auditor, the
+example meter, lamp model, species and enclosure while unchanged, the example readings
+file) so that ``check`` warns until each is edited.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+from pathlib import Path
+
+from audit_lib.errors import InputError
+from audit_lib.site.messages import line_of
+from audit_lib.site.schema import SiteFile
+
+#: ``[site]`` values of the starter that stand for "not filled in yet".
+PLACEHOLDERS = {"name": "My collection", "auditor": "Your name"}
+#: The starter's example readings file (in ``readings/``).
+EXAMPLE_READINGS = "first-audit.csv"
+#: Record lists whose items are examples as long as they equal the starter's.
+EXAMPLE_LISTS = {"meters": "meter", "lamp_models": "lamp model", "species": "species",
+                 "enclosures": "enclosure"}
 
 STARTER_SITE_TOML = """\
 # Site file for an enclosure lighting audit. Format described in docs/site-format.md.
@@ -40,8 +63,8 @@ id = "uvb-tube-60cm"
 kind = "tube"                     # led_array, tube, point or from_readings
 name = "UVB fluorescent tube 60 cm"
 length = "60 cm"                  # same as length_m = 0.6
-reflector_factor = 1.6            # gain of the reflector behind the tube [-]
-reference = { distance = "30 cm", uvi = 2.0 }   # on-axis output when new
+reference = { distance = "30 cm", uvi = 2.0 }   # below the middle, in its fitting, when new
+# general_lighting = true         # only for general lighting lamps: risk group at 500 lx
 # spectrum = "spectra/uvb-tube-60cm.csv"        # a measured spectrum, if you have one
 
 [[lamp_models.bands]]             # modelled spectrum: phosphor emission bands
@@ -116,3 +139,58 @@ date,enclosure,lamp,position,x_m,y_m,z_m,distance_m,quantity,value,unit,meter,no
 2026-01-15,viv-1,tube-1,basking,,,,,uvi,2.1,UVI,uvi-meter,meter on the basking slate
 2026-01-15,viv-1,tube-1,hide,,,,,uvi,0.3,UVI,uvi-meter,on the hide roof
 """
+
+
+@lru_cache(maxsize=1)
+def _starter() -> SiteFile:
+    try:  # Python >= 3.11
+        import tomllib
+    except ModuleNotFoundError:  # pragma: no cover - Python 3.10
+        import tomli as tomllib
+
+    return SiteFile.model_validate(tomllib.loads(STARTER_SITE_TOML))
+
+
+def placeholder_problems(site: SiteFile, root: Path, path: Path, lines: dict[str, int]
+                         ) -> list[InputError]:
+    """What in a site is still the starter's placeholder or example (warnings for ``check``).
+
+    Parameters
+    ----------
+    site : SiteFile
+        The validated records.
+    root : Path
+        The site folder.
+    path : Path
+        Its ``site.toml``.
+    lines : dict
+        Key path -> line (:func:`audit_lib.site.messages.locate_keys`).
+
+    Returns
+    -------
+    list of InputError
+        One per placeholder value, unchanged example record or example readings file.
+    """
+    found = []
+    for key, value in PLACEHOLDERS.items():
+        if getattr(site.site, key) == value:
+            field = f"site.{key}"
+            found.append(InputError(f"still the starter's placeholder {value!r}", path=path,
+                                    line=line_of(field, lines), field=field,
+                                    hint="write your own; it is shown on every report"))
+    starter = _starter()
+    for key, what in EXAMPLE_LISTS.items():
+        examples = getattr(starter, key)
+        for i, item in enumerate(getattr(site, key)):
+            if item in examples:
+                field = f"{key}[{i}]"
+                found.append(InputError(
+                    f"{what} {item.id!r} is the starter's example, unchanged", path=path,
+                    line=line_of(field, lines), field=field,
+                    hint=f"describe your own {what} here, or remove this one"))
+    readings = root / "readings" / EXAMPLE_READINGS
+    if readings.is_file() and \
+            readings.read_text(encoding="utf-8").splitlines() == STARTER_READINGS_CSV.splitlines():
+        found.append(InputError("the starter's example readings, unchanged", path=readings,
+                                hint="replace them with your own readings, or delete the file"))
+    return found

@@ -82,7 +82,7 @@ def line_shape(
     peak_nm: float,
     fwhm_nm: float,
     asymmetry: float = 1.0,
-    shape: str = "lorentzian",
+    shape: str = "gaussian",
 ) -> np.ndarray:
     """Relative spectral shape of an emission line, 1 at its peak.
 
@@ -98,10 +98,17 @@ def line_shape(
         Short-side half width divided by long-side half width [-]; > 1 skews the
         output towards shorter wavelengths. Default 1 (symmetric).
     shape : str, optional
-        ``"lorentzian"`` or ``"gaussian"`` (split forms: each side its own half width),
-        or ``"sigmoid_lorentzian"`` / ``"sigmoid_gaussian"`` (width varying smoothly
+        ``"gaussian"`` (default) or ``"lorentzian"`` (split forms: each side its own half
+        width), or ``"sigmoid_gaussian"`` / ``"sigmoid_lorentzian"`` (width varying smoothly
         across the peak, Stancik & Brauns 2008, converted so that the FWHM and
-        asymmetry are the true ones).
+        asymmetry are the true ones). Gaussian is the default because an LED's emission
+        falls off exponentially away from its peak: the ideal band-to-band line is
+        sqrt(E - Eg) exp(-(E - Eg)/kT) (Boltzmann tail; Schubert, Light-Emitting Diodes,
+        2nd ed. 2006, ch. 5) and alloy broadening adds a near-Gaussian spread, so LED
+        spectra are commonly modelled as Gaussian or split Gaussian lines (Ohno 2005,
+        Opt. Eng. 44:111302). A Lorentzian's 1/x^2 tail has no physical basis that far
+        from the peak and puts spurious power tens of nm away -- e.g. UVC and short UVB
+        below a UVB LED -- inflating the short-wave share and the actinic hazard.
 
     Returns
     -------
@@ -338,7 +345,7 @@ class EmitterType:
     asymmetry : float, optional
         Short-side / long-side half width of the pump line [-].
     shape : str, optional
-        Line shape of the pump line (see :func:`line_shape`).
+        Line shape of the pump line (see :func:`line_shape`); default ``"gaussian"``.
     beam_angle_deg : float, optional
         Full angle at half intensity [deg]; 120 = Lambertian. Ignored if ``pattern``.
     pattern : AngularPattern, optional
@@ -355,7 +362,7 @@ class EmitterType:
     fwhm_nm: float
     radiant_flux_w: float
     asymmetry: float = 1.0
-    shape: str = "lorentzian"
+    shape: str = "gaussian"
     beam_angle_deg: float = 120.0
     pattern: AngularPattern | None = None
     phosphor_bands: tuple[PhosphorBand, ...] = field(default_factory=tuple)
@@ -533,7 +540,7 @@ class LineFit:
 
 
 def fit_line_shape(
-    spectrum, shape: str = "lorentzian", lo_nm: float = 250.0, hi_nm: float = 420.0
+    spectrum, shape: str = "gaussian", lo_nm: float = 250.0, hi_nm: float = 420.0
 ) -> LineFit:
     """Fit peak, FWHM and asymmetry of one emission line to a measured spectrum.
 

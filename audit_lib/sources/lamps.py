@@ -143,9 +143,11 @@ def line_of_emitters(
 class TubeLamp:
     """A linear tube (fluorescent or similar) as a finite diffuse line source.
 
-    Give either ``radiant_flux_w`` (then only the spectrum's shape is used), or
-    ``reference_distance_m`` (the spectrum was measured below the middle of the lamp,
-    at that distance, with its reflector).
+    Give either ``radiant_flux_w`` of the bare tube (then only the spectrum's shape is
+    used), or ``reference_distance_m`` (the spectrum was measured below the middle of the
+    lamp, at that distance, in its fitting). There is no reflector factor: a uniform gain on
+    the front half-space would not shape the beam, and a reading taken under the fitting
+    already holds the reflector's gain; to model a tube in a reflector, give a reading.
 
     Parameters
     ----------
@@ -159,9 +161,6 @@ class TubeLamp:
         Total optical output of the bare tube over the spectrum's range [W].
     reference_distance_m : float, optional
         Distance below the tube middle where ``spectrum`` was measured [m].
-    reflector_factor : float, optional
-        Multiplier on intensity in the lower half-space (a reflector behind the tube);
-        1 = bare tube. Typical polished reflectors: 1.5-2 (common practice).
     n_segments : int, optional
         Number of point sources the tube is split into for maps.
     """
@@ -171,7 +170,6 @@ class TubeLamp:
     spectrum: object
     radiant_flux_w: float | None = None
     reference_distance_m: float | None = None
-    reflector_factor: float = 1.0
     n_segments: int = 60
 
 
@@ -407,7 +405,8 @@ class SourceGroup:
     distance_exponent : float
         n in 1/r^n (2 = inverse-square law).
     front_factor : float
-        Multiplier on intensity towards the lamp's front (``front``).
+        Multiplier on intensity towards the lamp's front (``front``); 1 for every lamp
+        model since tubes lost their reflector factor (kept for the geometry kernel).
     front : numpy.ndarray
         (3,) the lamp's front direction (-z of the lamp frame until placed).
     valid_range_m : tuple of float or None
@@ -488,16 +487,14 @@ def _scaled(lamp, on_axis_per_flux_watt: float, geometry_at_reference: float):
 
 
 def _tube_sources(lamp: TubeLamp) -> list[SourceGroup]:
-    length, n, f = float(lamp.length_m), int(lamp.n_segments), float(lamp.reflector_factor)
-    if length <= 0 or n < 1 or f <= 0:
-        raise InputError(
-            "tube needs length_m > 0, n_segments >= 1 and reflector_factor > 0", field=lamp.name
-        )
+    length, n = float(lamp.length_m), int(lamp.n_segments)
+    if length <= 0 or n < 1:
+        raise InputError("tube needs length_m > 0 and n_segments >= 1", field=lamp.name)
     d = lamp.reference_distance_m or 1.0
     beta = np.arctan(length / (2 * d))
-    # below the middle: E = 2 f (I'/D) 1/2 (beta + sin beta cos beta), handbook aspect factor
+    # below the middle: E = 2 (I'/D) 1/2 (beta + sin beta cos beta), handbook aspect factor
     wl, per_length = _scaled(
-        lamp, 1.0 / (np.pi**2 * length), d / (f * (beta + np.sin(beta) * np.cos(beta)))
+        lamp, 1.0 / (np.pi**2 * length), d / (beta + np.sin(beta) * np.cos(beta))
     )
     x = (np.arange(n) + 0.5) / n * length - length / 2
     return [
@@ -511,7 +508,6 @@ def _tube_sources(lamp: TubeLamp) -> list[SourceGroup]:
             quantities=weigh_spectral(wl, per_length),
             wavelength_nm=wl,
             spectral=per_length,
-            front_factor=f,
         )
     ]
 
