@@ -454,8 +454,9 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         write_outputs(result, site)
         if run_overview:  # reads the results.json just written: the reports' own figures
             task = _overview_task(site_dir, out_dir, audit_date, overview_workbook)
-            result.overview = outcome(_execute(pool, [task], progress)[0])
-            write_outputs(result, site)
+            for done in _execute(pool, [task], progress):
+                result.overview = outcome(done)
+                write_outputs(result, site)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
     return result
