@@ -30,6 +30,9 @@ HEIGHT_STATISTICS = ("max", "mean")
 #: Lowest height scanned above the surface, and the scan step [m].
 LOWEST_CLEARANCE_M = 0.05
 HEIGHT_STEP_M = 0.01
+#: With an aimed-at value, a first pass scans every 5th height; the heights between are
+#: scanned only where that pass crosses the aim or an end of the range.
+COARSE_EVERY = 5
 
 
 @dataclass(frozen=True)
@@ -47,7 +50,8 @@ class HeightAnswer:
     uvi_range : tuple of float
         Target (lo, hi) [-].
     heights_m : numpy.ndarray
-        Lamp heights scanned (lamp face above the floor), bounded by ``top_m`` [m].
+        Lamp heights scanned (lamp face above the floor), bounded by ``top_m`` [m]; with an
+        aimed-at value, 1 cm steps only near the crossings of the aim and the range ends.
     uvi : numpy.ndarray
         The statistic at each height [-].
     achievable : bool
@@ -208,11 +212,39 @@ def height_for_target(
         base = evaluate_points(replace(enclosure, lamps=others), pts, ("uvi",),
                                failed=failed).values["uvi"]
     own_failed = _failed_of(failed, lamp)
-    values = np.empty(heights.size)
-    for j, h in enumerate(heights):
-        moved = replace(enclosure, lamps=(replace(placed, z_m=float(h)),))
-        own = evaluate_points(moved, pts, ("uvi",), failed=own_failed).values["uvi"]
-        values[j] = scale * reduce(base + own)
+
+    def statistic_at(hs):
+        if not enclosure.screens:
+            # no screen planes: raising the lamp by d is lowering every point by d (the
+            # geometry is relative), so all heights go in one call
+            alone = replace(enclosure, lamps=(placed,))
+            shifted = np.concatenate([pts - np.array([0.0, 0.0, h - placed.z_m]) for h in hs])
+            own = evaluate_points(alone, shifted, ("uvi",), failed=own_failed).values["uvi"]
+            return scale * reduce(base + own.reshape(len(hs), -1), axis=1)
+        out = np.empty(len(hs))
+        for j, h in enumerate(hs):
+            moved = replace(enclosure, lamps=(replace(placed, z_m=float(h)),))
+            own = evaluate_points(moved, pts, ("uvi",), failed=own_failed).values["uvi"]
+            out[j] = scale * reduce(base + own)
+        return out
+
+    if aim_uvi is not None and heights.size > 2 * COARSE_EVERY:
+        # coarse pass (every COARSE_EVERY-th height and the top), then every height inside
+        # the coarse steps where the statistic crosses the aim or the range's ends
+        coarse = np.unique(np.r_[np.arange(0, heights.size, COARSE_EVERY), heights.size - 1])
+        known = dict(zip(coarse.tolist(), statistic_at(heights[coarse]), strict=True))
+        wanted = set()
+        for a, b in zip(coarse[:-1], coarse[1:], strict=True):
+            va, vb = known[int(a)], known[int(b)]
+            if any((va - t) * (vb - t) <= 0 for t in (float(aim_uvi), lo, hi)):
+                wanted.update(range(int(a) + 1, int(b)))
+        fine = np.array(sorted(wanted - set(known)), dtype=int)
+        if fine.size:
+            known.update(zip(fine.tolist(), statistic_at(heights[fine]), strict=True))
+        keep = np.array(sorted(known), dtype=int)
+        heights, values = heights[keep], np.array([known[int(k)] for k in keep])
+    else:
+        values = statistic_at(heights)
     good = (values >= lo) & (values <= hi)
     bands = _bands(heights, good)
     best = None
