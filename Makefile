@@ -7,12 +7,13 @@ OUT    := out
 DEMO_SITE := sample_sites/kestrel-moor-wildlife-park
 DEMO_SPECTRA := $(wildcard $(DEMO_SITE)/spectra/*.csv)
 
-.PHONY: setup demo spectra test test-fast lint bench clean
+.PHONY: setup demo spectra test test-fast lint bench wheel clean
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install --quiet --upgrade pip
 	$(PY) -m pip install --quiet -e '.[test]'
+	@# for `jupyter lab workbooks/...` (the batch and `light-audit what-if` need no registration)
 	$(PY) -m ipykernel install --sys-prefix --name audit-lib --display-name "Python (audit-lib)"
 	touch $(STAMP)
 
@@ -48,5 +49,11 @@ lint: setup
 bench: setup
 	@for b in benchmarks/*.py; do echo "== $$b"; $(PY) $$b || exit 1; done
 
+## The wheel in dist/ (workbooks and report template inside): `pip install dist/audit_lib-*.whl`.
+wheel: setup
+	rm -rf build dist
+	$(PY) -m pip wheel --quiet --no-deps --wheel-dir dist .
+	@ls dist/*.whl
+
 clean:
-	rm -rf $(OUT) .pytest_cache
+	rm -rf $(OUT) .pytest_cache build dist

@@ -10,11 +10,12 @@ from __future__ import annotations
 import datetime as dt
 import re
 from html import escape
-from pathlib import Path
+from importlib.resources import files
 
 from audit_lib.report.cautions import CAUTIONS
 
-_CSS = Path(__file__).resolve().parents[2] / "templates" / "audit" / "static" / "report.css"
+#: The report template's style sheet (package data ``audit_lib.templates``).
+_CSS = files("audit_lib.templates") / "audit" / "static" / "report.css"
 
 
 def state_class(state: str | None) -> str:

@@ -202,14 +202,20 @@ def _init_worker(warm_up: str) -> None:
     # notebook schema never uses. Without it jsonschema simply skips that format check.
     sys.modules.setdefault("rfc3987_syntax", None)
 
-    kernel = WarmKernel(warm_up=warm_up)
-    _WORKER["kernel"] = kernel
-    kernel.launch()  # the kernel boots while this process imports and compiles below
-    Finalize(kernel, kernel.shutdown, exitpriority=10)  # runs when the worker process ends
-    import papermill  # noqa: F401
+    try:
+        kernel = WarmKernel(warm_up=warm_up)
+        _WORKER["kernel"] = kernel
+        kernel.launch()  # the kernel boots while this process imports and compiles below
+        Finalize(kernel, kernel.shutdown, exitpriority=10)  # runs when the worker process ends
+        import papermill  # noqa: F401
 
-    _WORKER["exporter"] = make_exporter()
-    kernel.ensure_started()
+        _WORKER["exporter"] = make_exporter()
+        kernel.ensure_started()
+    except Exception as exc:  # noqa: BLE001 - each workbook reports it (no traceback, no
+        # broken pool): a missing Jupyter part is named instead
+        reason = (str(exc).strip().splitlines() or [""])[0]
+        _WORKER["startup_error"] = (f"could not start Jupyter to run the workbook: "
+                                    f"{type(exc).__name__}: {reason}")
 
 
 def _ready() -> int:
@@ -226,6 +232,9 @@ def _run_task(task: dict) -> dict:
     """Execute and convert one workbook inside a worker; return a JSON-able outcome."""
     from papermill.exceptions import PapermillExecutionError
 
+    if "startup_error" in _WORKER:
+        return {"id": task["id"], "name": task["name"], "error": _WORKER["startup_error"],
+                "seconds": 0.0}
 
     out_dir = Path(task["out_dir"])
     stem = task["stem"]

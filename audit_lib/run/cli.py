@@ -10,9 +10,12 @@ from __future__ import annotations
 import argparse
 import functools
 import os
+import shlex
+import subprocess
 import sys
 import warnings
 
+from audit_lib import __version__
 from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
 from audit_lib.history.sync import sync_site_history
 from audit_lib.light.metrics import format_metrics_table, spectrum_metrics
@@ -24,6 +27,7 @@ from audit_lib.pipeline.forecast import (
     site_replacement_schedule,
 )
 from audit_lib.run.batch import run_batch, run_scenario
+from audit_lib.run.notebooks import jupyterlab_command, register_kernel, write_what_if_workbook
 from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site, new_site, summarise_site
 from audit_lib.site.schema import parse_quantity
@@ -310,16 +314,53 @@ def _run_fit_emitter(args) -> int:
     return 0
 
 
+def _add_what_if_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "what-if",
+        help="copy the what-if workbook for a site into a folder and open it in JupyterLab",
+    )
+    p.add_argument("site", nargs="?", default=".",
+                   help="the site folder (holding site.toml; default: this folder)")
+    p.add_argument("--enclosure", metavar="ID", default="",
+                   help="enclosure to plan (default: a blank enclosure)")
+    p.add_argument("--out", metavar="DIR", default=".",
+                   help="folder for the workbook copy (default: this folder)")
+    p.add_argument("--no-launch", action="store_true",
+                   help="only write the copy and print the command that opens it")
+    p.set_defaults(handler=_run_what_if)
+
+
+def _run_what_if(args) -> int:
+    site = load_site(args.site)  # every problem of the site, before anything is written
+    if args.enclosure:
+        site.enclosure(args.enclosure)  # a clear error for an unknown id
+    path, written = write_what_if_workbook(args.site, args.enclosure, args.out)
+    print(f"wrote {path}" if written else f"kept the earlier copy {path} (delete it for a new one)")
+    kernel = register_kernel()
+    if kernel is not None:
+        print(f"registered the Jupyter kernel 'Python (audit-lib)' in {kernel}")
+    command = jupyterlab_command(path)
+    if args.no_launch:
+        print(shlex.join(command))
+        return 0
+    print("starting JupyterLab (Ctrl+C twice to stop it)")
+    try:
+        return subprocess.call(command, cwd=path.parent)
+    except KeyboardInterrupt:
+        return 130
+
+
 def build_parser() -> argparse.ArgumentParser:
     """Return the argument parser with every subcommand registered."""
     parser = argparse.ArgumentParser(
         prog="light-audit",
         description="Audit the UV and visible lighting of reptile and amphibian enclosures.",
     )
+    parser.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
     subparsers = parser.add_subparsers(dest="command", required=True)
     for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,
                 _add_import_parser, _add_forecast_parser, _add_sun_parser,
-                _add_fit_emitter_parser):
+                _add_fit_emitter_parser, _add_what_if_parser):
         add(subparsers)
     return parser
 

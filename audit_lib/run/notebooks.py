@@ -6,17 +6,31 @@ one, so imported modules stay loaded), and compiles the report template once in 
 ``HTMLExporter``. A cold ``papermill`` or ``jupyter nbconvert`` process costs seconds; the
 warm path costs the workbook's own computation plus tens of milliseconds of conversion.
 
+The workbooks and the report template are package data (``audit_lib.workbooks``,
+``audit_lib.templates``), found with :mod:`importlib.resources`, so an installed wheel runs
+from any folder. The kernel is the interpreter this code runs in, started from
+``sys.executable`` with no registered kernel spec needed, and talks over IPC sockets in a
+private folder where the platform has them (POSIX), so nothing travels over TCP.
+
 Sources: papermill's engine interface (``papermill.engines.NBClientEngine``) and nbclient's
-``NotebookClient`` with a caller-owned kernel manager; nbconvert's template inheritance
-(``extra_template_basedirs``, ``TagRemovePreprocessor``).
+``NotebookClient`` with a caller-owned kernel manager; jupyter_client's ``KernelSpec``,
+``KernelSpecManager`` and ``transport="ipc"``; ipykernel's ``kernelspec.install``;
+nbconvert's template inheritance (``extra_template_basedirs``, ``TagRemovePreprocessor``).
 """
 
 from __future__ import annotations
 
 import base64
+import json
 import os
+import re
+import shutil
+import sys
+import tempfile
+from importlib.resources import files
 from pathlib import Path
 
+from audit_lib.errors import AuditError
 from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE
 from audit_lib.site.files import read_logo
 
@@ -24,10 +38,25 @@ from audit_lib.site.files import read_logo
 HIDDEN_TAGS = ("parameters", "injected-parameters", "report-data", "hide-in-report")
 #: Name of the Jupyter kernel the workbooks ask for (``metadata.kernelspec.name``).
 KERNEL_NAME = "audit-lib"
-#: Folder holding the nbconvert templates (``templates/audit``) in the repository.
-TEMPLATES_DIR = Path(__file__).resolve().parents[2] / "templates"
-#: Folder holding the workbooks in the repository.
-WORKBOOKS_DIR = Path(__file__).resolve().parents[2] / "workbooks"
+#: How JupyterLab lists that kernel.
+KERNEL_DISPLAY_NAME = "Python (audit-lib)"
+
+
+def _package_folder(package: str) -> Path:
+    folder = files(package)
+    if not isinstance(folder, Path):  # e.g. a package imported from a zip file
+        raise AuditError(f"{package} is not a folder on disk; install audit_lib from its "
+                         "wheel with pip (not zipped) to run workbooks")
+    return folder
+
+
+#: Folder holding the nbconvert templates (``audit/``): package data ``audit_lib.templates``
+#: (``templates/`` at the top of the repository).
+TEMPLATES_DIR = _package_folder("audit_lib.templates")
+#: Folder holding the workbooks: package data ``audit_lib.workbooks`` (``workbooks/``).
+WORKBOOKS_DIR = _package_folder("audit_lib.workbooks")
+#: The what-if workbook that ``light-audit what-if`` copies for the user.
+WHAT_IF_WORKBOOK = WORKBOOKS_DIR / "what_if.ipynb"
 _ENGINE_NAME = "audit-lib-warm"
 # Clears what a workbook left in the kernel: its names, the output cache and its figures.
 # Cheaper than ``%reset -f`` (which also collects garbage and resets the history: about
@@ -123,8 +152,6 @@ def convert_notebook(nb, exporter=None) -> str:
     header["logo_data_uri"] = logo_data_uri(header.pop("logo_path", None))
     run = nb.metadata.get("papermill", {})
     if run:
-        import json
-
         header["provenance"] = [
             *header.get("provenance", []),
             ("Run", f"{run.get('start_time', '')[:19]} to {run.get('end_time', '')[:19]} UTC"),
@@ -160,12 +187,54 @@ def write_atomic(path: str | os.PathLike, data: str | bytes) -> Path:
     return path
 
 
-def available_kernel_name() -> str:
-    """Return :data:`KERNEL_NAME` if registered, else the current interpreter's ``python3``."""
+def this_interpreter_kernel_spec():
+    """Return the spec of an IPython kernel run by this very interpreter (``sys.executable``).
+
+    The batch starts its kernels from it, so it needs no registered kernel spec and never
+    picks up a kernel of another Python installation.
+    """
+    from jupyter_client.kernelspec import KernelSpec
+
+    return KernelSpec(argv=[sys.executable, "-m", "ipykernel_launcher", "-f",
+                            "{connection_file}"],
+                      display_name=KERNEL_DISPLAY_NAME, language="python")
+
+
+def _spec_manager():
+    """A kernel spec manager that answers :data:`KERNEL_NAME` with this interpreter."""
     from jupyter_client.kernelspec import KernelSpecManager
 
-    names = KernelSpecManager().find_kernel_specs()
-    return KERNEL_NAME if KERNEL_NAME in names else "python3"
+    class ThisInterpreterSpecs(KernelSpecManager):
+        def get_kernel_spec(self, kernel_name):
+            if kernel_name == KERNEL_NAME:
+                return this_interpreter_kernel_spec()
+            return super().get_kernel_spec(kernel_name)
+
+    return ThisInterpreterSpecs()
+
+
+def register_kernel() -> Path | None:
+    """Register the :data:`KERNEL_NAME` kernel for JupyterLab if Jupyter does not know it.
+
+    It is written beside this interpreter (``sys.prefix``, as ``ipykernel install
+    --sys-prefix`` does), or in the user's Jupyter folder if that is read-only.
+
+    Returns
+    -------
+    Path or None
+        Folder of the kernel spec written; None if the kernel was known already.
+    """
+    from ipykernel.kernelspec import install
+    from jupyter_client.kernelspec import KernelSpecManager
+
+    if KERNEL_NAME in KernelSpecManager().find_kernel_specs():
+        return None
+    try:
+        where = install(kernel_name=KERNEL_NAME, display_name=KERNEL_DISPLAY_NAME,
+                        prefix=sys.prefix)
+    except PermissionError:
+        where = install(kernel_name=KERNEL_NAME, display_name=KERNEL_DISPLAY_NAME, user=True)
+    return Path(where)
 
 
 def _register_engine() -> None:
@@ -214,7 +283,8 @@ class WarmKernel:
     Parameters
     ----------
     kernel_name : str, optional
-        Kernel spec name; default :func:`available_kernel_name`.
+        Kernel spec name; default :data:`KERNEL_NAME`, which is this interpreter
+        (:func:`this_interpreter_kernel_spec`) whether or not a spec is registered.
     cwd : str or PathLike, optional
         Working directory of the kernel; default the workbooks folder, so the workbooks'
         relative default paths work.
@@ -224,11 +294,12 @@ class WarmKernel:
 
     def __init__(self, kernel_name: str | None = None, cwd=None, warm_up: str = "") -> None:
         _register_engine()
-        self.kernel_name = kernel_name or available_kernel_name()
+        self.kernel_name = kernel_name or KERNEL_NAME
         self.cwd = str(cwd or WORKBOOKS_DIR)
         self.warm_up = warm_up
         self.km = None
         self.kc = None
+        self._socket_dir = None
 
     def launch(self) -> None:
         """Start the kernel process without waiting for it (see :meth:`ensure_started`).
@@ -242,7 +313,12 @@ class WarmKernel:
         if self.km is not None and run_sync(self.km.is_alive)():
             return
         self.shutdown()
-        self.km = AsyncKernelManager(kernel_name=self.kernel_name)
+        connection = {}
+        if os.name == "posix":  # IPC sockets in a private folder (mode 0700), not TCP ports
+            self._socket_dir = tempfile.mkdtemp(prefix="audit-kernel-")
+            connection = {"transport": "ipc", "ip": os.path.join(self._socket_dir, "kernel")}
+        self.km = AsyncKernelManager(kernel_name=self.kernel_name,
+                                     kernel_spec_manager=_spec_manager(), **connection)
         # an exported MPLBACKEND (e.g. Agg) would stop the inline backend: figures vanish
         env = {k: v for k, v in os.environ.items() if k != "MPLBACKEND"}
         run_sync(self.km.start_kernel)(cwd=self.cwd, env=env)
@@ -303,10 +379,79 @@ class WarmKernel:
         if self.kc is not None:
             self.kc.stop_channels()
             self.kc = None
-        if self.km is None:
-            return
         try:
-            if run_sync(self.km.is_alive)():
+            if self.km is not None and run_sync(self.km.is_alive)():
                 run_sync(self.km.shutdown_kernel)(now=True)
         finally:
             self.km = None
+            if self._socket_dir is not None:
+                shutil.rmtree(self._socket_dir, ignore_errors=True)
+                self._socket_dir = None
+
+
+def _set_parameters(source: str, values: dict) -> str:
+    """Return a parameters cell with each ``name = value`` line given a new value.
+
+    The line's type annotation and comment are kept; a name the cell lacks is appended.
+    """
+    lines = source.splitlines()
+    for name, value in values.items():
+        pattern = re.compile(rf"^{re.escape(name)}(\s*:[^=]*)?=[^#]*(#.*)?$")
+        for i, line in enumerate(lines):
+            match = pattern.match(line)
+            if match:
+                comment = f"  {match.group(2)}" if match.group(2) else ""
+                lines[i] = f"{name}{(match.group(1) or '').rstrip()} = {value!r}{comment}"
+                break
+        else:
+            lines.append(f"{name} = {value!r}")
+    return "\n".join(lines)
+
+
+def write_what_if_workbook(site_dir, enclosure_id: str, out_dir) -> tuple[Path, bool]:
+    """Copy the what-if workbook into a folder with the site and enclosure filled in.
+
+    The copy's parameters cell holds the site folder's absolute path and the enclosure id,
+    so it runs from any folder. An earlier copy of the same name is kept as it is (it may
+    hold the user's changes).
+
+    Parameters
+    ----------
+    site_dir : str or PathLike
+        The site folder.
+    enclosure_id : str
+        Enclosure to plan; empty for a blank enclosure.
+    out_dir : str or PathLike
+        Folder for the copy (created if needed).
+
+    Returns
+    -------
+    (Path, bool)
+        The workbook's path, and whether it was written now (False: an earlier copy).
+    """
+    out_dir = Path(out_dir)
+    path = out_dir / (f"what-if-{enclosure_id}.ipynb" if enclosure_id else "what-if.ipynb")
+    if path.exists():
+        return path, False
+    nb = json.loads(WHAT_IF_WORKBOOK.read_text(encoding="utf-8"))
+    cells = [c for c in nb["cells"] if "parameters" in c.get("metadata", {}).get("tags", [])]
+    if not cells:
+        raise AuditError(f"{WHAT_IF_WORKBOOK}: no cell tagged 'parameters'")
+    source = "".join(cells[0]["source"])
+    cells[0]["source"] = _set_parameters(source, {
+        "site_dir": str(Path(site_dir).resolve()), "enclosure_id": enclosure_id})
+    out_dir.mkdir(parents=True, exist_ok=True)
+    write_atomic(path, json.dumps(nb, indent=1, ensure_ascii=False) + "\n")
+    return path, True
+
+
+def jupyterlab_command(workbook) -> list[str]:
+    """Return the command that opens a workbook in JupyterLab, served from its folder.
+
+    JupyterLab runs from this interpreter (``python -m jupyterlab``), so it finds the
+    ``audit_lib`` installed here; its kernels talk over IPC where the platform has it.
+    """
+    workbook = Path(workbook).resolve()
+    ipc = ["--KernelManager.transport=ipc"] if os.name == "posix" else []
+    return [sys.executable, "-m", "jupyterlab", f"--ServerApp.root_dir={workbook.parent}",
+            *ipc, str(workbook)]
