@@ -64,13 +64,16 @@ def test_safe_stem_keeps_valid_ids_and_separates_others():
 
 
 def _result(tmp_path) -> BatchResult:
-    checks = [{"name": "basking UV Index maximum", "value": 3.2, "unit": "UVI",
+    checks = [{"check_id": "basking_uvi_max", "name": "basking UV Index maximum", "value": 3.2,
+               "unit": "UVI",
                "target_low": 2.9, "target_high": 7.4, "state": "within range",
                "reason": "fine, \"quoted\", with a comma"},
-              {"name": "keeper exposure limit", "value": float("inf"), "unit": "min",
+              {"check_id": "keeper_exposure_time", "name": "keeper exposure limit",
+               "value": float("inf"), "unit": "min",
                "target_low": 30.0, "target_high": float("inf"), "state": "within range",
                "reason": "no limit"},
-              {"name": "mean UV Index of the animal", "value": float("nan"), "unit": "UVI",
+              {"check_id": "animal_uvi_mean", "name": "mean UV Index of the animal",
+               "value": float("nan"), "unit": "UVI",
                "target_low": 1.0, "target_high": 2.6, "state": "not enough data",
                "reason": "no time budget"}]
     return BatchResult("Demo", tmp_path, [
@@ -86,8 +89,10 @@ def test_results_json_is_strict_json(tmp_path):
     back = json.loads(text)
     first, second = back["enclosures"]
     assert set(first) >= {"id", "verdict", "report", "checks", "error"}
-    assert set(first["checks"][0]) == {"name", "value", "unit", "target_low", "target_high",
-                                       "state", "reason"}
+    assert set(first["checks"][0]) == {"check_id", "name", "species", "value", "unit",
+                                       "target_low", "target_high", "state", "reason"}
+    assert first["checks"][0]["check_id"] == "basking_uvi_max"
+    assert first["lamps"] == [] and first["actions"] == [] and "audit_date" in first
     assert first["checks"][1]["value"] is None and first["checks"][1]["target_high"] is None
     assert first["checks"][2]["value"] is None
     assert second["verdict"] is None and second["error"].startswith("ValueError")
@@ -101,6 +106,8 @@ def test_results_csv_one_row_per_check(tmp_path):
     assert len(rows) == 3 + 1
     assert rows[0]["reason"] == 'fine, "quoted", with a comma'
     assert float(rows[0]["value"]) == 3.2 and rows[1]["target_high"] == ""
+    assert [r["check_id"] for r in rows[:3]] == ["basking_uvi_max", "keeper_exposure_time",
+                                                  "animal_uvi_mean"]
     assert rows[3]["enclosure"] == "e2" and rows[3]["error"] == "ValueError: broken on purpose"
 
 
@@ -145,8 +152,8 @@ def test_invalid_site_runs_nothing(tmp_path):
 
 def test_longest_workbooks_are_queued_first():
     """Longest-processing-time-first list scheduling (Graham 1969, SIAM J. Appl. Math. 17,
-    416-429): the overview first, then enclosures by their number of lamps and surfaces
-    (what sets the number of figures), ties kept in site order."""
+    416-429): enclosures by their number of lamps and surfaces (what sets the number of
+    figures), ties kept in site order. The overview runs after them, on their results."""
     from types import SimpleNamespace
 
     from audit_lib.run.batch import _order
@@ -154,9 +161,8 @@ def test_longest_workbooks_are_queued_first():
     sizes = {"small": (1, 1), "big": (3, 2), "mid": (2, 1), "mid2": (1, 2)}
     site = SimpleNamespace(enclosure=lambda i: SimpleNamespace(
         lamps=[0] * sizes[i][0], surfaces=[0] * sizes[i][1]))
-    tasks = [{"id": i} for i in sizes] + [{"id": "site-overview", "overview": True}]
-    assert [t["id"] for t in _order(tasks, site)] == ["site-overview", "big", "mid", "mid2",
-                                                      "small"]
+    tasks = [{"id": i} for i in sizes]
+    assert [t["id"] for t in _order(tasks, site)] == ["big", "mid", "mid2", "small"]
 
 
 # --- end to end ------------------------------------------------------------------------------
@@ -215,12 +221,43 @@ def test_demo_results_match_the_library(demo_run):
         audit = audit_enclosure(site, entry["id"])
         assert entry["verdict"] == audit.verdict
         assert [c["name"] for c in entry["checks"]] == [c.name for c in audit.checks]
+        assert [c["check_id"] for c in entry["checks"]] == [c.id for c in audit.checks]
         for got, want in zip(entry["checks"], audit.checks, strict=True):
             assert got["state"] == want.state
             if want.value is None or not math.isfinite(want.value):
                 assert got["value"] is None
             else:
                 assert got["value"] == pytest.approx(want.value, rel=1e-6)
+
+
+@pytest.mark.slow
+def test_demo_figures_agree_across_results_csv_index_and_overview(demo_run):
+    """consistency: results.csv repeats results.json's check figures (by check id); the
+    index shows each verdict; the overview workbook ran on the run's results.json and its
+    report shows each enclosure's basking maximum and lamp forecast dates as results.json
+    has them (RFC 4180 CSV; papermill's recorded parameters)."""
+    _, out = demo_run
+    doc = _load(out)
+    rows = list(csv.DictReader(io.StringIO((out / "results.csv").read_text())))
+    by_key = {(r["enclosure"], r["check_id"]): r for r in rows}
+    overview_nb = nbformat.read(out / "reports" / "site-overview.ipynb", as_version=4)
+    assert overview_nb.metadata.papermill.parameters["results_json"] == str(
+        (out / "results.json").resolve())
+    overview_html = (out / "reports" / "site-overview.html").read_text()
+    index = (out / "index.html").read_text()
+    for entry in doc["enclosures"]:
+        assert entry["audit_date"] and entry["verdict"] in index
+        for check in entry["checks"]:
+            row = by_key[(entry["id"], check["check_id"])]
+            assert row["check"] == check["name"]
+            if check["value"] is None:
+                assert row["value"] == ""
+            else:
+                assert float(row["value"]) == check["value"]
+        bask = next(c for c in entry["checks"] if c["check_id"] == "basking_uvi_max")
+        assert f"{bask['value']:.2f}" in overview_html
+        for lamp in entry["lamps"]:
+            assert lamp["replace_by"] is None or lamp["replace_by"] in overview_html
 
 
 @pytest.mark.slow

@@ -35,17 +35,22 @@ def test_height_matches_inverse_square_solution():
     assert low - 0.2 == pytest.approx(math.sqrt(intensity / hi), abs=0.011)
     assert high - 0.2 == pytest.approx(math.sqrt(intensity / lo), abs=0.011)
     assert low <= answer.suggested_height_m <= high
-    assert "suggested" in answer.message
+    aimed = height_for_target(enc, "compact UVB lamp", "rock", (lo, hi), spacing_m=0.01,
+                              aim_uvi=4.0)
+    assert aimed.suggested_height_m - 0.2 == pytest.approx(math.sqrt(intensity / 4.0), abs=2e-3)
+    assert aimed.suggested_uvi == pytest.approx(4.0, rel=0.01)
 
 
 def test_height_says_when_no_height_can():
+    """Too weak a lamp is closest at the lowest height (inverse-square law), too strong a
+    lamp at the top; the answer says on which side of the range it stays."""
     enc, intensity = _scene()
     answer = height_for_target(enc, "compact UVB lamp", "rock", (500.0, 600.0))
-    assert not answer.achievable
-    assert answer.message.startswith("No height from 0.25 to 0.90 m")
-    assert "stronger lamp" in answer.message
+    assert not answer.achievable and answer.side == "below"
+    assert answer.suggested_height_m == pytest.approx(0.25)
     far = height_for_target(enc, "compact UVB lamp", "rock", (0.001, 0.002))
-    assert "weaker lamp" in far.message
+    assert not far.achievable and far.side == "above"
+    assert far.suggested_height_m == pytest.approx(0.9)
     with pytest.raises(InputError, match="no lamp 'spot'"):
         height_for_target(enc, "spot", "rock", (1, 2))
     with pytest.raises(InputError, match="unknown statistic 'median'"):
@@ -72,6 +77,24 @@ def test_emitter_count_matches_superposition():
     none = emitter_count_for_target(
         enc, "bar", "uvb", "rock", (100 * per_emitter, 200 * per_emitter)
     )
-    assert not none.achievable and "No count from 1 to 16" in none.message
+    assert not none.achievable and none.side == "below" and none.counts[-1] == 16
     with pytest.raises(InputError, match="has no emitters of type 'uva'"):
         emitter_count_for_target(enc, "bar", "uva", "rock", (1, 2))
+
+
+def test_height_search_never_leaves_the_enclosure():
+    """Bounded search: no scanned or suggested height lies above the enclosure top (0.9 m),
+    even when heights above it are asked for or the range needs more distance (a target
+    below what the top gives: inverse-square law, UVI = I / h^2 is still above range there)."""
+    enc, intensity = _scene()
+    top = enc.height_m
+    asked = height_for_target(enc, "compact UVB lamp", "rock", (1.0, 2.0),
+                              heights_m=np.arange(0.3, 2.0, 0.05))
+    assert asked.heights_m.max() <= top + 1e-9
+    weak_target = intensity / (top - 0.2) ** 2 / 4
+    answer = height_for_target(enc, "compact UVB lamp", "rock", (0.0, weak_target))
+    assert answer.top_m == top and answer.heights_m.max() == pytest.approx(top)
+    assert not answer.achievable and answer.side == "above"
+    assert answer.suggested_height_m <= top
+    with pytest.raises(InputError, match="no heights to scan at or below the top"):
+        height_for_target(enc, "compact UVB lamp", "rock", (1, 2), heights_m=[1.5, 2.0])

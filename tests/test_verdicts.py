@@ -59,22 +59,51 @@ def test_zone_mismatch_is_an_error(zones, species):
         assess_enclosure("v", species["leopard-gecko"], zones[4])
 
 
-def _inverse_square_height(uvi_now, h_now):
+def _inverse_square_search(uvi_now, h_now, surface_z=0.5, top=1.0):
     """Point-source inverse-square law E ~ 1/d^2 (lighting handbooks; photometric distance
-    law): height giving a target UVI."""
-    return lambda target: h_now * (uvi_now / target) ** 0.5
+    law) as a bounded height search: the height above the surface giving the aimed UVI,
+    refused above the enclosure top ``top`` (lamp face above the floor)."""
+    from types import SimpleNamespace
+
+    def search(uvi_range, aim):
+        h = h_now * (uvi_now / aim) ** 0.5
+        ok = surface_z + h <= top
+        best = surface_z + h if ok else top
+        return SimpleNamespace(
+            lamp="uv-1", achievable=ok, suggested_height_m=best,
+            suggested_uvi=aim if ok else uvi_now * (h_now / (top - surface_z)) ** 2,
+            present_height_m=surface_z + h_now, surface_z_m=surface_z, top_m=top,
+            side="" if ok else "above", heights_m=[surface_z + 0.05, top])
+
+    return search
 
 
 def test_height_action_uses_the_scene_function(zones, species):
     """Inverse-square law (photometric distance law): 11.2 UVI at 0.30 m to the zone 4 mid
-    maximum 7.0 UVI needs 0.30 x sqrt(11.2 / 7.0) = 0.379 m, i.e. raise by 8 cm."""
+    maximum 7.0 UVI needs 0.30 x sqrt(11.2 / 7.0) = 0.379 m, i.e. raise by 8 cm; the action
+    carries the lamp and its new height above the floor (0.5 m surface + 0.379 m)."""
     v = assess_enclosure("v", species["bearded-dragon"], zones[4], basking_max_uvi=11.2,
-                         height_for_uvi=_inverse_square_height(11.2, 0.30),
-                         current_height_m=0.30, lamp="uv-1")
+                         height_search=_inverse_square_search(11.2, 0.30), lamp="uv-1")
     move = [a for a in v.actions if a.kind == "move lamp"]
     assert len(move) == 1
     assert move[0].value == pytest.approx(0.30 * (11.2 / 7.0) ** 0.5 - 0.30)
+    assert move[0].height_m == pytest.approx(0.5 + 0.30 * (11.2 / 7.0) ** 0.5)
+    assert move[0].lamp == "uv-1" and move[0].check == "basking_uvi_max"
     assert move[0].text.startswith("Raise the lamp uv-1 by 8 cm (from 0.30 m to 0.38 m")
+
+
+def test_height_the_enclosure_lacks_is_said_plainly(zones, species):
+    """Bounded search: 0.379 m above a 0.5 m surface would put the lamp at 0.88 m, above a
+    0.75 m top; the action says no height fixes it and moves nothing (inverse-square law)."""
+    v = assess_enclosure("v", species["bearded-dragon"], zones[4], basking_max_uvi=11.2,
+                         height_search=_inverse_square_search(11.2, 0.20, 0.5, 0.75),
+                         lamp="uv-1")
+    assert not [a for a in v.actions if a.kind == "move lamp"]
+    (change,) = [a for a in v.actions if a.kind == "change lamp"]
+    assert change.height_m is None and change.check == "basking_uvi_max"
+    assert change.text.startswith("No mount height of the lamp uv-1 up to the top of the "
+                                  "enclosure (0.75 m above the floor")
+    assert "weaker lamp" in change.text
 
 
 def test_screen_refuge_photoperiod_keeper_and_replacement_actions(zones, species):

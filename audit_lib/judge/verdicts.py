@@ -3,28 +3,34 @@
 :func:`assess_enclosure` runs the checks of :mod:`audit_lib.judge.targets` on the figures of one
 enclosure and species and bundles them into a :class:`Verdict`. :func:`recommend_actions`
 computes actions from the checks and from numbers or functions that the caller takes from the
-scene model and the history (a height-for-target function, an emitter count function, a
-screen's transmission, a replacement forecast date), so this module imports neither the scene,
-the site nor the history. No action text is canned: each sentence carries its own numbers.
+scene model and the history (the bounded height search of :mod:`audit_lib.scene.inverse`, an
+emitter count function, a screen's transmission, a replacement forecast date). No action
+text is canned: each sentence carries its own numbers. Checks are found by their stable id
+(:data:`audit_lib.judge.targets.CHECK_IDS`), never by their wording. :func:`recommendation`
+says "no change needed" only when every check is within range.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
 from audit_lib.errors import InputError
 from audit_lib.judge.targets import (
     ABOVE,
+    BASKING_UVI_MAX,
     BELOW,
     COMMON_PRACTICE,
+    KEEPER_EXPOSURE_TIME,
     KEEPER_TIME_S,
+    LIGHT_HOURS,
     LIGHT_HOURS_RANGE,
     NO_DATA,
+    REFUGE_FLOOR_SHARE,
     REFUGE_MIN_SHARE,
     REFUGE_UVI_MAX,
+    SHORT_UVB_SHARE,
     SHORT_UVB_TOLERANCE,
     SpeciesTarget,
     Zone,
@@ -47,17 +53,19 @@ class Action:
     Attributes
     ----------
     kind : str
-        ``"move lamp"``, ``"change emitters"``, ``"remove screen"``, ``"add refuge"``,
-        ``"replace lamp"``, ``"change photoperiod"``, ``"limit keeper time"``,
-        ``"check spectrum"``.
+        One of :data:`ACTION_KINDS`.
     check : str
-        Name of the check it answers (or ``""``).
+        Id of the check it answers (or ``""``).
     text : str
         One sentence for the report.
     value : float or None
         The key figure (e.g. height change) [``unit``].
     unit : str
         Its unit.
+    lamp : str or None
+        The lamp it concerns, if one.
+    height_m : float or None
+        New mount height of the lamp face above the floor when the action moves a lamp [m].
     """
 
     kind: str
@@ -65,6 +73,13 @@ class Action:
     text: str
     value: float | None = None
     unit: str = ""
+    lamp: str | None = None
+    height_m: float | None = None
+
+
+#: Kinds of :class:`Action` (stable: ``results.json`` carries them).
+ACTION_KINDS = ("move lamp", "change lamp", "change emitters", "remove screen", "add refuge",
+                "replace lamp", "change photoperiod", "limit keeper time", "check spectrum")
 
 
 @dataclass(frozen=True)
@@ -112,7 +127,7 @@ def overall_state(checks) -> tuple[str, str]:
     if out:
         names = "; ".join(f"{c.name} {c.state}" for c in out)
         return ATTENTION, f"{len(out)} of {len(checks)} checks are out of range: {names}."
-    if not checks or any(c.name == "basking UV Index maximum" for c in missing):
+    if not checks or any(c.id == BASKING_UVI_MAX for c in missing):
         return NO_DATA, "The basking UV Index maximum is missing, so the zone cannot be judged."
     names = ", ".join(c.name for c in missing)
     extra = f" ({len(missing)} could not be made for lack of data: {names})" if missing else ""
@@ -125,27 +140,50 @@ def _mid(low, high):
     return 0.5 * (low + high)
 
 
-def _basking_actions(bask, height_for_uvi, current_height_m, emitters_for_uvi, current_emitters,
-                     screen_transmission, lamp) -> list[Action]:  # fmt: skip
+def _height_actions(bask, height_search, goal) -> list[Action]:
+    """Move the lamp to the bounded search's height, or say plainly that no height can."""
+    target = _mid(bask.target_low, bask.target_high)
+    answer = height_search((bask.target_low, bask.target_high), target)
+    lamp = answer.lamp
+    if answer.achievable:
+        change = answer.suggested_height_m - answer.present_height_m
+        if abs(change) < 0.005:
+            return []
+        verb = "Raise" if change > 0 else "Lower"
+        above = answer.suggested_height_m - answer.surface_z_m
+        now = answer.present_height_m - answer.surface_z_m
+        text = (f"{verb} the lamp {lamp} by {abs(change) * 100:.0f} cm (from {now:.2f} m to "
+                f"{above:.2f} m above the basking surface) {goal}.")
+        return [Action("move lamp", bask.id, text, change, "m", lamp,
+                       answer.suggested_height_m)]
+    if answer.side == "above":
+        where = (f"up to the top of the enclosure ({answer.top_m:.2f} m above the floor, "
+                 f"{answer.top_m - answer.surface_z_m:.2f} m above the basking surface)")
+        fix = "use a weaker lamp, fewer emitters or a UV-reducing screen"
+    else:
+        where = (f"down to {answer.heights_m.min() - answer.surface_z_m:.2f} m above the "
+                 "basking surface")
+        fix = "use a stronger lamp or more emitters"
+    text = (f"No mount height of the lamp {lamp} {where} brings the basking UV Index into "
+            f"{bask.target_low:g}-{bask.target_high:g}: the closest is "
+            f"{answer.suggested_uvi:.1f} at {answer.suggested_height_m:.2f} m above the floor; "
+            f"{fix}.")
+    return [Action("change lamp", bask.id, text, answer.suggested_uvi, "UVI", lamp)]
+
+
+def _basking_actions(bask, height_search, emitters_for_uvi, current_emitters,
+                     screen_transmission, lamp) -> list[Action]:
     target = _mid(bask.target_low, bask.target_high)
     goal = f"to bring the basking UV Index from {bask.value:.1f} to about {target:.1f}"
     out = []
-    if height_for_uvi is not None and current_height_m is not None:
-        new_h = height_for_uvi(target)
-        if new_h is not None and math.isfinite(new_h) and new_h > 0:
-            change = new_h - current_height_m
-            verb = "Raise" if change > 0 else "Lower"
-            name = f" {lamp}" if lamp else ""
-            text = (
-                f"{verb} the lamp{name} by {abs(change) * 100:.0f} cm (from "
-                f"{current_height_m:.2f} m to {new_h:.2f} m above the basking surface) {goal}."
-            )
-            out.append(Action("move lamp", bask.name, text, change, "m"))
+    if height_search is not None:
+        out += _height_actions(bask, height_search, goal)
     if emitters_for_uvi is not None and current_emitters is not None:
         n = emitters_for_uvi(target)
         if n is not None and int(n) > 0 and int(n) != current_emitters:
             text = f"Use {int(n)} emitters instead of {current_emitters} {goal}."
-            out.append(Action("change emitters", bask.name, text, float(n), "emitters"))
+            out.append(Action("change emitters", bask.id, text, float(n), "emitters",
+                              lamp or None))
     if bask.state == BELOW and screen_transmission is not None and 0 < screen_transmission < 1:
         without = bask.value / screen_transmission
         text = (
@@ -153,7 +191,7 @@ def _basking_actions(bask, height_for_uvi, current_height_m, emitters_for_uvi, c
             f"{screen_transmission * 100:.0f} % of the UV): the basking UV Index would rise "
             f"from {bask.value:.1f} to about {without:.1f}."
         )
-        out.append(Action("remove screen", bask.name, text, without, "UVI"))
+        out.append(Action("remove screen", bask.id, text, without, "UVI"))
     return out
 
 
@@ -167,14 +205,13 @@ def _replacement_action(replacement_date, audit_date, lamp) -> Action:
             f"Plan to replace {name} by {when}, when its output is forecast to fall below target."
         )
     days = None if audit_date is None else float((replacement_date - audit_date).days)
-    return Action("replace lamp", "", text, days, "days")
+    return Action("replace lamp", "", text, days, "days", lamp or None)
 
 
 def recommend_actions(
     checks,
     *,
-    height_for_uvi: Callable[[float], float] | None = None,
-    current_height_m: float | None = None,
+    height_search: Callable | None = None,
     emitters_for_uvi: Callable[[float], int] | None = None,
     current_emitters: int | None = None,
     screen_transmission: float | None = None,
@@ -192,10 +229,11 @@ def recommend_actions(
     ----------
     checks : iterable of Check
         Results of the check functions.
-    height_for_uvi : callable, optional
-        Lamp height above the basking surface that gives a basking UV Index [UVI -> m].
-    current_height_m : float, optional
-        Present height [m].
+    height_search : callable, optional
+        ``height_search(uvi_range, aim_uvi)`` returns a
+        :class:`audit_lib.scene.inverse.HeightAnswer`-like record (``lamp``, ``achievable``,
+        ``suggested_height_m``, ``suggested_uvi``, ``present_height_m``, ``surface_z_m``,
+        ``top_m``, ``side``, ``heights_m``): the bounded height search of the scene model.
     emitters_for_uvi : callable, optional
         Number of emitters that gives a basking UV Index [UVI -> count].
     current_emitters : int, optional
@@ -215,15 +253,14 @@ def recommend_actions(
     -------
     list of Action
     """
-    by_name = {c.name: c for c in checks}
+    by_id = {c.id: c for c in checks}
     actions: list[Action] = []
-    bask = by_name.get("basking UV Index maximum")
+    bask = by_id.get(BASKING_UVI_MAX)
     if bask is not None and bask.state in (BELOW, ABOVE):
         actions += _basking_actions(
-            bask, height_for_uvi, current_height_m, emitters_for_uvi, current_emitters,
-            screen_transmission, lamp,
+            bask, height_search, emitters_for_uvi, current_emitters, screen_transmission, lamp,
         )  # fmt: skip
-    refuge = by_name.get("low-UV refuge share of floor")
+    refuge = by_id.get(REFUGE_FLOOR_SHARE)
     if refuge is not None and refuge.state == BELOW and floor_area_m2:
         need = (refuge.target_low - refuge.value) * floor_area_m2
         text = (
@@ -231,8 +268,8 @@ def recommend_actions(
             f"{refuge.value * 100:.0f} % of the {floor_area_m2:.2f} m2 floor, target at least "
             f"{refuge.target_low * 100:.0f} %."
         )
-        actions.append(Action("add refuge", refuge.name, text, need, "m2"))
-    hours = by_name.get("hours of light")
+        actions.append(Action("add refuge", refuge.id, text, need, "m2"))
+    hours = by_id.get(LIGHT_HOURS)
     if hours is not None and hours.state in (BELOW, ABOVE):
         bound = hours.target_low if hours.state == BELOW else hours.target_high
         change = bound - hours.value
@@ -241,21 +278,21 @@ def recommend_actions(
             f"{verb} the light period by {abs(change):.1f} h (now {hours.value:.1f} h, "
             f"target {hours.target_low:.1f}-{hours.target_high:.1f} h)."
         )
-        actions.append(Action("change photoperiod", hours.name, text, change, "h"))
-    keeper = by_name.get("keeper exposure limit")
+        actions.append(Action("change photoperiod", hours.id, text, change, "h"))
+    keeper = by_id.get(KEEPER_EXPOSURE_TIME)
     if keeper is not None and keeper.state == BELOW:
         text = (
             f"Keep work near the lamp under {keeper.value:.0f} min a day or switch the UV lamp "
             "off while working, and wear UV-protective eyewear."
         )
-        actions.append(Action("limit keeper time", keeper.name, text, keeper.value, "min"))
-    short = by_name.get("short-wave UVB share (280-290 nm)")
+        actions.append(Action("limit keeper time", keeper.id, text, keeper.value, "min"))
+    short = by_id.get(SHORT_UVB_SHARE)
     if short is not None and short.state == ABOVE:
         text = (
             f"Check the lamp's spectrum: {short.value * 100:.2f} % of its UVB is below 290 nm; "
             "a lamp or filter without this short-wave part is closer to sunlight."
         )
-        actions.append(Action("check spectrum", short.name, text, short.value, "-"))
+        actions.append(Action("check spectrum", short.id, text, short.value, "-"))
     if replacement_date is not None:
         actions.append(_replacement_action(replacement_date, audit_date, lamp))
     return actions
@@ -310,7 +347,7 @@ def assess_enclosure(
     working_distance_m : float, optional
         Keeper's working distance [m].
     **action_inputs
-        Passed to :func:`recommend_actions` (``height_for_uvi``, ``current_height_m``, ...).
+        Passed to :func:`recommend_actions` (``height_search``, ``screen_transmission``, ...).
 
     Returns
     -------
@@ -344,3 +381,44 @@ def assess_enclosure(
             f"(status: {species.status}); check it with your own sources."
         )
     return Verdict(enclosure, species.id, state, reason, checks, actions, tuple(notes))
+
+
+#: The recommendation when every check made is within range and nothing is to be done.
+NO_CHANGE = "No change needed: every check made is within range."
+
+
+def unanswered_sentence(checks, actions) -> str:
+    """One plain sentence naming the out-of-range checks that no action answers ("" if none)."""
+    answered = {a.check for a in actions}
+    left = [c for c in checks if c.state in (BELOW, ABOVE) and c.id not in answered]
+    if not left:
+        return ""
+    names = "; ".join(f"{c.name} {c.state}" for c in left)
+    return (f"No single change computed here brings {names} into range: review the lamp, its "
+            "schedule and the furnishings with the keeper.")
+
+
+def recommendation(verdicts) -> str:
+    """The recommendation that follows the checks of one or more verdicts.
+
+    "No change needed" only when every check made is within range and no action (such as
+    a planned lamp replacement) is due; otherwise the actions' sentences, followed by a plain
+    sentence for any out-of-range check that no single change computed here fixes.
+    """
+    verdicts = list(verdicts)
+    if not verdicts:
+        return "No species with a known zone is chosen: no targets to compare with."
+    checks = [c for v in verdicts for c in v.checks]
+    seen, actions = set(), []
+    for a in (a for v in verdicts for a in v.actions):
+        if a.text not in seen:
+            seen.add(a.text)
+            actions.append(a)
+    out = [c for c in checks if c.state in (BELOW, ABOVE)]
+    if not out and not actions:
+        return NO_CHANGE
+    parts = [a.text for a in actions]
+    left = unanswered_sentence(checks, actions)
+    if left:
+        parts.append(left)
+    return " ".join(parts)

@@ -6,8 +6,10 @@ point values (:mod:`audit_lib.scene.maps`), daily and monthly doses (:mod:`audit
 :mod:`audit_lib.day.photoperiod`), the sun's clear-sky curve (:mod:`audit_lib.light.sun`),
 checks, verdicts and actions (:mod:`audit_lib.judge.targets`, :mod:`audit_lib.judge.verdicts`),
 failure scenarios (:mod:`audit_lib.scene.failures`), lamp decay and replacement forecasts
-(:mod:`audit_lib.history.decay`) and spectrum metrics (:mod:`audit_lib.light.metrics`). It computes
-nothing of its own beyond choosing which figure feeds which check:
+(:mod:`audit_lib.history.decay`) and spectrum metrics (:mod:`audit_lib.light.metrics`).
+Everything after the maps (basking maximum, refuge, the day, the time budget, keeper limit,
+checks, verdict and actions) is the downstream it shares with the what-if planner,
+:func:`audit_lib.pipeline.findings.find_figures`. Its own choices:
 
 * The model is calibrated to the audit's own UV Index readings when there are any: every map
   quantity is scaled by the median ratio measured / modelled at the named positions (all
@@ -15,33 +17,29 @@ nothing of its own beyond choosing which figure feeds which check:
   factor is reported; without readings the model is used as given (lamps as new).
 * A reading named after a surface (not a named position) is compared with the model at
   that surface's brightest cell: keepers measure the hottest spot (common practice).
-* Basking maximum: highest UV Index over the basking surfaces (the floor if there are none).
-  Refuge: floor share below the refuge threshold. Animal mean: the time budget's
-  share-weighted mean UV Index while active, each place represented by its surface mean
-  (or its point for named positions).
+* Lamp ages and replacement dates come from :func:`audit_lib.pipeline.forecast.lamp_forecasts`
+  (readings corrected for meter spectral mismatch where the site gives a response), the
+  forecast ``light-audit forecast`` prints.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-import math
-import warnings
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
 from audit_lib import __version__
-from audit_lib.day.dose import TimeBudget, integrate_daily_dose, integrate_time_budget
 from audit_lib.day.dose import monthly_table as dose_monthly_table
-from audit_lib.day.photoperiod import daily_profiles, lit_hours_of_table
-from audit_lib.errors import AuditError, AuditWarning, InputError
+from audit_lib.day.photoperiod import daily_profiles
+from audit_lib.errors import InputError
 from audit_lib.judge import targets
-from audit_lib.judge.verdicts import ATTENTION, MEETS, assess_enclosure
-from audit_lib.light import metrics
 from audit_lib.light.sun import clear_sky_daily_dose_sed, clear_sky_uvi_day
 from audit_lib.pipeline import steps
 from audit_lib.pipeline.assemble import build_scene, failed_labels, lamp_schedule
+from audit_lib.pipeline.findings import Findings, collect_notes, find_figures
+from audit_lib.pipeline.forecast import lamp_forecasts, site_lamp_installs
 from audit_lib.scene.maps import compute_maps, point_values, statistics_table
 from audit_lib.site.checks import calibration_warnings
 from audit_lib.site.folder import load_site
@@ -64,10 +62,10 @@ class EnclosureAudit:
         From the site file.
     logo_path : str or None
         Absolute path of the site's logo.
-    species : list of SpeciesTarget
-        The enclosure's species with their zones.
-    zone : Zone or None
-        Target ranges of the highest zone among the species.
+    findings : audit_lib.pipeline.findings.Findings
+        The shared downstream's figures, checks, verdicts and actions; ``species``,
+        ``zone``, ``verdicts``, ``verdict``, ``reason``, ``checks``, ``actions``,
+        ``basking_dose`` and ``animal_dose`` read from it.
     scene : audit_lib.scene.maps.Enclosure
         The modelled enclosure.
     calibration : float
@@ -81,17 +79,11 @@ class EnclosureAudit:
     daily : pandas.DataFrame
         UV Index through the day at the basking maximum (``enclosure_uvi``) and the sun's
         clear-sky UV Index at the site (``sun_uvi``), index ``time_h``.
-    basking_dose, animal_dose : DailyDose or None
-        Daily doses at the basking maximum and for the animal's time budget.
     monthly : pandas.DataFrame
         Month-by-month figures at the basking maximum (:func:`audit_lib.day.dose.monthly_table`).
     natural : dict
         The sun's clear-sky reference day: latitude, place ("the species' native range" when a
         species gives its native latitude, else "the site"), peak UV Index, daily SED.
-    verdicts : list of Verdict
-        One per species.
-    verdict, reason : str
-        Overall state and its reason (the worst of the species' verdicts).
     failures : pandas.DataFrame
         LED emitter failure scenarios (empty when there are no LED arrays).
     failure_study : MonteCarloResult or None
@@ -105,7 +97,8 @@ class EnclosureAudit:
     lamp_spectra : dict of str to Spectrum
         Lamp model id to its spectrum (shape; absolute where the model gives it).
     notes : list of str
-        Caveats the report must show.
+        Caveats the report must show (the audit's own, the findings' and the library's
+        warnings, collected by :func:`audit_lib.pipeline.findings.collect_notes`).
     provenance : dict
         What the figures rest on (files, versions, settings).
     """
@@ -118,21 +111,15 @@ class EnclosureAudit:
     organisation: str = ""
     client: str = ""
     logo_path: str | None = None
-    species: list = field(default_factory=list)
-    zone: object = None
+    findings: Findings | None = None
     scene: object = None
     calibration: float = 1.0
     maps: dict = field(default_factory=dict)
     surface_stats: pd.DataFrame | None = None
     points: pd.DataFrame | None = None
     daily: pd.DataFrame | None = None
-    basking_dose: object = None
-    animal_dose: object = None
     monthly: pd.DataFrame | None = None
     natural: dict = field(default_factory=dict)
-    verdicts: list = field(default_factory=list)
-    verdict: str = ""
-    reason: str = ""
     failures: pd.DataFrame | None = None
     failure_study: object = None
     lamps: pd.DataFrame | None = None
@@ -142,26 +129,19 @@ class EnclosureAudit:
     notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
 
-    @property
-    def checks(self) -> list:
-        """Every check of every species' verdict (species named in the check's name)."""
-        many = len(self.verdicts) > 1
-        out = []
-        for v in self.verdicts:
-            for c in v.checks:
-                out.append(replace(c, name=f"{c.name} ({v.species})") if many else c)
-        return out
-
-    @property
-    def actions(self) -> list:
-        """Recommended actions of every verdict, without repeats."""
-        seen, out = set(), []
-        for v in self.verdicts:
-            for a in v.actions:
-                if a.text not in seen:
-                    seen.add(a.text)
-                    out.append(a)
-        return out
+    species = property(lambda self: self.findings.species, doc="Species judged.")
+    zone = property(lambda self: self.findings.zone, doc="Zone of the highest species.")
+    verdicts = property(lambda self: self.findings.verdicts, doc="One verdict per species.")
+    verdict = property(lambda self: self.findings.verdict, doc="Overall state.")
+    reason = property(lambda self: self.findings.reason, doc="Reason of the overall state.")
+    checks = property(lambda self: self.findings.checks, doc="Every check of every verdict.")
+    actions = property(lambda self: self.findings.actions, doc="Actions, without repeats.")
+    recommendation = property(lambda self: self.findings.recommendation,
+                              doc="The recommendation that follows the checks.")
+    basking_dose = property(lambda self: self.findings.basking_dose,
+                            doc="Daily dose at the basking maximum.")
+    animal_dose = property(lambda self: self.findings.animal_dose,
+                           doc="Daily dose of the animal's time budget.")
 
 
 def choose_audit_date(site, audit_date=None) -> dt.date:
@@ -236,29 +216,6 @@ def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                     with_failures: bool = True) -> EnclosureAudit:
     """Audit one enclosure of a loaded site; library warnings become the record's notes.
 
-    See :func:`_audit_enclosure` for the parameters.
-    """
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", AuditWarning)
-        audit = _audit_enclosure(site, enclosure_id, audit_date=audit_date,
-                                 spacing_m=spacing_m,
-                                 emitter_failure_probability=emitter_failure_probability,
-                                 with_failures=with_failures)
-    for w in caught:
-        text = str(w.message)
-        if not issubclass(w.category, AuditWarning):
-            warnings.showwarning(w.message, w.category, w.filename, w.lineno)
-        elif text not in audit.notes:
-            audit.notes.append(text)
-    return audit
-
-
-def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
-                     spacing_m: float = DEFAULT_SPACING_M,
-                     emitter_failure_probability: float = 0.05,
-                     with_failures: bool = True) -> EnclosureAudit:
-    """Audit one enclosure of a loaded site.
-
     Parameters
     ----------
     site : audit_lib.site.folder.Site
@@ -273,11 +230,24 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
         Probability that one LED emitter is out at the next audit, for the Monte Carlo
         study; an assumption to set per audit, not a published figure [-].
     with_failures : bool
-        Compute the LED failure scenarios (the site overview leaves them out).
+        Compute the LED failure scenarios (they feed no check).
 
     Returns
     -------
     EnclosureAudit
+    """
+    return collect_notes(_audit_enclosure, site, enclosure_id, audit_date=audit_date,
+                         spacing_m=spacing_m,
+                         emitter_failure_probability=emitter_failure_probability,
+                         with_failures=with_failures)
+
+
+def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
+                     emitter_failure_probability, with_failures) -> EnclosureAudit:
+    """Run the audit's own stages around the shared downstream.
+
+    Calibration, full maps, the sun, lamp forecasts and failures are the audit's; the rest
+    is :func:`audit_lib.pipeline.findings.find_figures`.
     """
     record = site.enclosure(enclosure_id)
     info = site.records.site
@@ -285,12 +255,6 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     known = targets.species_targets(site.records.species)
     species = [known[s] for s in record.species if s in known]
     zones = targets.read_zone_table()
-    zone = zones[max(s.zone for s in species)] if species else None
-    notes = [f"Species {s!r} is in neither the site's nor the library's species table."
-             for s in record.species if s not in known]
-    notes += [text[0].upper() + text[1:] + "." for text in
-              calibration_warnings(site.readings_of(enclosure_id), site.records)]
-    max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
 
     scene = build_scene(site, enclosure_id)
     failed = failed_labels(site, enclosure_id)
@@ -303,125 +267,67 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date=None,
     calibration = steps.calibration_factor(points) if len(points) else 1.0
     if len(points):
         points["modelled_uvi"] = points["uvi"] * calibration
+    notes = [text[0].upper() + text[1:] + "." for text in
+             calibration_warnings(site.readings_of(enclosure_id), site.records)]
     notes.append(f"Model scaled by {calibration:.2f} to match the UV Index readings of {day}."
                  if calibration != 1.0 else
                  "No UV Index readings at named positions on the audit day: the model shows "
                  "the lamps at their rated output (as new).")
     maps = steps.scale_maps(raw_maps, calibration)
-    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
 
-    basking = [s.name for s in scene.all_surfaces if s.kind == "basking"] or ["floor"]
-    peak_surface = max(basking, key=lambda n: float(maps[n].values["uvi"].max()))
-    peak_map = maps[peak_surface]
-    iy, ix = np.unravel_index(np.argmax(peak_map.values["uvi"]), peak_map.values["uvi"].shape)
-    peak_point = np.array([peak_map.x_m[ix], peak_map.y_m[iy], peak_map.surface.z_m])
-    basking_max = float(peak_map.values["uvi"].max())
-    refuge_share = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
-
-    sun_lat, sun_lon, sun_offset, sun_place = steps.sun_place(site, species, day)
     schedules = {p.id: lamp_schedule(site, p) for p in record.lamps}
     profiles = daily_profiles(schedules, day) if schedules else None
-    at_peak = steps.per_lamp_values(scene, peak_point[None, :], failed)
-    uvi_peak = {k: calibration * float(v[0]) for k, v in at_peak["uvi"].items()}
-    vitd_peak = {k: calibration * float(v[0]) for k, v in at_peak["vitamin_d_w_m2"].items()}
-    basking_dose = animal = monthly = None
-    light_hours = mean_uvi = None
-    if profiles is not None:
-        basking_dose = integrate_daily_dose(uvi_peak, profiles, vitamin_d_w_m2_full=vitd_peak,
-                                            uvi_range=max_range)
-        light_hours = lit_hours_of_table(profiles)
-        monthly = dose_monthly_table(uvi_peak, schedules, day.year,
-                                     vitamin_d_w_m2_full=vitd_peak, uvi_range=max_range,
-                                     reference_latitude_deg=sun_lat)
-        if record.time_budget:
-            places = steps.budget_places(record, scene)
-            unknown = [k for k in record.time_budget if k not in places]
-            if unknown:
-                notes.append(f"Time budget place(s) {unknown} are not surfaces or positions; "
-                             "the animal's mean UV Index was not computed.")
-            else:
-                by_place, vitd_place = {}, {}
-                for name in record.time_budget:
-                    per = steps.per_lamp_values(scene, places[name], failed)
-                    by_place[name] = {k: calibration * float(v.mean())
-                                      for k, v in per["uvi"].items()}
-                    vitd_place[name] = {k: calibration * float(v.mean())
-                                        for k, v in per["vitamin_d_w_m2"].items()}
-                budget = TimeBudget(shares=dict(record.time_budget))
-                mean_range = (zone.mean_uvi_low, zone.mean_uvi_high) if zone else None
-                animal, _ = integrate_time_budget(budget, by_place, profiles,
-                                                  vitamin_d_by_position=vitd_place,
-                                                  uvi_range=mean_range)
-                mean_uvi = float(animal.mean_uvi_exposed)
+    lamp_spectra, spectra = steps.lamp_spectra(site, record, scene)
+    lamps, decays = lamp_forecasts(site, site.readings_of(enclosure_id),
+                                   site_lamp_installs(site, enclosure_id), today=day)
+    replace_by = None
+    if len(lamps) and lamps["replace_by"].notna().any():
+        replace_by = pd.Timestamp(lamps["replace_by"].dropna().min()).date()
+    found = find_figures(record, scene, maps, failed=failed, scale=calibration,
+                         species=species, zones=zones, profiles=profiles,
+                         spectra_metrics=spectra, audit_date=day, spacing_m=spacing_m,
+                         replacement_date=replace_by,
+                         unknown_species=[s for s in record.species if s not in known])
+    zone = found.zone
+    max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
+    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
 
+    sun_lat, sun_lon, sun_offset, sun_place = steps.sun_place(site, species, day)
+    monthly = None
+    if profiles is not None:
+        monthly = dose_monthly_table(found.uvi_at_peak, schedules, day.year,
+                                     vitamin_d_w_m2_full=found.vitamin_d_at_peak,
+                                     uvi_range=max_range, reference_latitude_deg=sun_lat)
     sun = clear_sky_uvi_day(sun_lat, sun_lon, day, utc_offset_h=sun_offset, step_s=600.0)
     daily = pd.DataFrame({"time_h": sun["time_h"].to_numpy(), "sun_uvi": sun["uvi"].to_numpy()})
-    if profiles is not None:
-        lamp_uvi = sum(profiles[k].to_numpy() * v for k, v in uvi_peak.items())
-        daily["enclosure_uvi"] = np.interp(daily["time_h"], profiles.index.to_numpy(),
-                                           lamp_uvi)
+    if found.daily_uvi is not None:
+        daily["enclosure_uvi"] = np.interp(daily["time_h"], found.daily_uvi.index.to_numpy(),
+                                           found.daily_uvi.to_numpy())
     daily = daily.set_index("time_h")
     natural = {"latitude_deg": sun_lat, "place": sun_place, "date": day,
                "peak_uvi": float(sun["uvi"].max()),
                "daily_sed": float(clear_sky_daily_dose_sed(sun_lat, day))}
 
-    lamp_spectra, spectra = steps.lamp_spectra(site, record, scene)
-    sun_ref = metrics.sun_reference()
-    short = [m["short_uvb_fraction"] for m in spectra.values()
-             if m.get("uvb_w_m2", 0) > 0 and math.isfinite(m.get("short_uvb_fraction", math.nan))]
-    keeper = steps.keeper_limit(scene, record, failed)
-    lamps, decays = steps.lamp_table(site, record, day, zone.max_uvi_low if zone else math.nan)
-    replace_by = None
-    if lamps is not None and len(lamps) and lamps["replace_by"].notna().any():
-        replace_by = pd.Timestamp(lamps["replace_by"].dropna().min()).date()
-    main = max(scene.lamps, key=lambda p: uvi_peak.get(p.id, 0.0)) if scene.lamps else None
-    screens = [s.transmission for s in scene.screens if s.transmission is not None]
-    action_inputs = dict(
-        current_height_m=float(main.z_m - peak_point[2]) if main else None,
-        height_for_uvi=steps.height_for_uvi(scene, main, peak_point, failed, calibration)
-        if main else None,
-        screen_transmission=min(screens) if screens else None,
-        floor_area_m2=record.width_m * record.depth_m, replacement_date=replace_by,
-        audit_date=day, lamp=main.id if main else "")
-    verdicts = [assess_enclosure(
-        enclosure_id, s, zones[s.zone], basking_max_uvi=basking_max, mean_uvi=mean_uvi,
-        refuge_share=refuge_share, light_hours=light_hours,
-        short_uvb_fraction=max(short) if short else None,
-        sun_short_uvb_fraction=sun_ref["short_uvb_fraction"], keeper_limit_s=keeper,
-        working_distance_m=record.keeper_working_distance_m, **action_inputs)
-        for s in species]
-    states = [v.state for v in verdicts]
-    if ATTENTION in states:
-        verdict = ATTENTION
-    elif states and all(s == MEETS for s in states):
-        verdict = MEETS
-    else:
-        verdict = targets.NO_DATA
-    reason = " ".join(v.reason for v in verdicts) or "No species with a known zone is assigned."
-    for v in verdicts:
-        notes += [n for n in v.notes if n not in notes]
-
     failures, monte_carlo = (pd.DataFrame(), None)
     if max_range and with_failures:
-        failures, monte_carlo = steps.failure_table(scene, peak_surface, failed, max_range,
-                                               calibration, emitter_failure_probability)
+        failures, monte_carlo = steps.failure_table(scene, found.basking_surface, failed,
+                                                    max_range, calibration,
+                                                    emitter_failure_probability)
     if monte_carlo is not None:
-        notes.append(
+        found.notes.append(
             f"Emitter failures: with each emitter out with an assumed probability of "
             f"{emitter_failure_probability:.0%}, {monte_carlo.probability_below:.0%} of 2000 "
             f"random trials leave less than {monte_carlo.coverage_threshold:.0%} of "
-            f"{peak_surface!r} inside the maximum UV Index range.")
+            f"{found.basking_surface!r} inside the maximum UV Index range.")
 
     return EnclosureAudit(
         site_name=site.name, enclosure_id=enclosure_id, enclosure_name=record.name,
         audit_date=day, auditor=info.auditor, organisation=info.organisation,
         client=info.client, logo_path=str(site.path_of(info.logo)) if info.logo else None,
-        species=species, zone=zone, scene=scene, calibration=calibration, maps=maps,
-        surface_stats=stats, points=points, daily=daily, basking_dose=basking_dose,
-        animal_dose=animal, monthly=monthly, natural=natural, verdicts=verdicts,
-        verdict=verdict, reason=reason, failures=failures, failure_study=monte_carlo,
-        lamps=lamps, decays=decays, spectra=spectra,
-        lamp_spectra=lamp_spectra, notes=notes,
+        findings=found, scene=scene, calibration=calibration, maps=maps,
+        surface_stats=stats, points=points, daily=daily, monthly=monthly, natural=natural,
+        failures=failures, failure_study=monte_carlo, lamps=lamps, decays=decays,
+        spectra=spectra, lamp_spectra=lamp_spectra, notes=notes + found.notes,
         provenance=_provenance(site, enclosure_id, spacing_m, day))
 
 
@@ -436,57 +342,3 @@ def _provenance(site, enclosure_id, spacing_m, day) -> dict:
             "map_spacing_m": spacing_m,
             "targets": "Ferguson zones (data/ferguson_zones.csv), species table "
                        "(data/species_demo.csv) with the site's own species"}
-
-
-@dataclass
-class SiteAudit:
-    """Every enclosure of a site audited for the overview (see :func:`audit_site`).
-
-    Attributes
-    ----------
-    site_name : str
-        The site.
-    audit_date : datetime.date
-        The audit day.
-    audits : list of EnclosureAudit
-        The enclosures that could be audited, in site order.
-    errors : dict of str to str
-        Enclosure id to the error that stopped its audit.
-    auditor, organisation, client, logo_path : str
-        From the site file.
-    """
-
-    site_name: str
-    audit_date: dt.date
-    audits: list = field(default_factory=list)
-    errors: dict = field(default_factory=dict)
-    auditor: str = ""
-    organisation: str = ""
-    client: str = ""
-    logo_path: str | None = None
-
-
-def audit_site(site, *, audit_date=None, spacing_m: float = 0.04) -> SiteAudit:
-    """Audit every enclosure of a site without failure scenarios; errors are kept per enclosure.
-
-    Parameters
-    ----------
-    site : audit_lib.site.folder.Site
-        A loaded site.
-    audit_date : str or datetime.date, optional
-        Audit day (default :func:`choose_audit_date`).
-    spacing_m : float
-        Map grid spacing [m] (coarser than a single report's by default).
-    """
-    day = choose_audit_date(site, audit_date)
-    info = site.records.site
-    result = SiteAudit(site.name, day, auditor=info.auditor, organisation=info.organisation,
-                       client=info.client,
-                       logo_path=str(site.path_of(info.logo)) if info.logo else None)
-    for record in site.records.enclosures:
-        try:
-            result.audits.append(audit_enclosure(site, record.id, audit_date=day,
-                                                 spacing_m=spacing_m, with_failures=False))
-        except (AuditError, ValueError, ArithmeticError) as exc:
-            result.errors[record.id] = f"{type(exc).__name__}: {exc}"
-    return result

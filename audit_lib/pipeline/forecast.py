@@ -74,6 +74,40 @@ def schedule_daily_hours(schedule) -> float:
     return sum(by_month.values()) / len(by_month)
 
 
+def _install_rows(site, enclosure_id: str | None = None) -> list[dict]:
+    """Every install of every lamp of a site (replacements included), in site order."""
+    rows = []
+    for enclosure in site.records.enclosures:
+        if enclosure_id is not None and enclosure.id != enclosure_id:
+            continue
+        for lamp in enclosure.lamps:
+            hours = lamp.daily_hours
+            if hours is None:
+                hours = schedule_daily_hours(site.schedule(lamp.schedule))
+            for installed_on in (*lamp.earlier_installs, lamp.installed):  # replacements
+                rows.append(dict(enclosure=enclosure.id, lamp=lamp.id, installed_on=installed_on,
+                                 daily_hours=hours, lamp_model=lamp.model))
+    return rows
+
+
+def site_lamp_installs(site, enclosure_id: str | None = None) -> pd.DataFrame:
+    """The lamp installs of a site's records, as the history store gives them.
+
+    Same columns as :func:`audit_lib.history.store.read_lamp_installs` (``removed_on`` is the
+    next install of the same lamp, NaT while in place), so a forecast from the site folder
+    and one from the history database see the same installs.
+    """
+    rows = _install_rows(site, enclosure_id)
+    table = pd.DataFrame(rows, columns=["enclosure", "lamp", "installed_on", "daily_hours",
+                                        "lamp_model"])
+    table["installed_on"] = pd.to_datetime(table["installed_on"])
+    table = table.sort_values(["enclosure", "lamp", "installed_on"], kind="stable")
+    table["removed_on"] = table.groupby(["enclosure", "lamp"])["installed_on"].shift(-1)
+    table["note"] = ""
+    return table[["enclosure", "lamp", "installed_on", "removed_on", "daily_hours",
+                  "lamp_model", "note"]].reset_index(drop=True)
+
+
 def sync_lamp_installs(site, db_path: str | PathLike) -> int:
     """Record every lamp of a site (install day, daily hours, model) in its history.
 
@@ -89,16 +123,7 @@ def sync_lamp_installs(site, db_path: str | PathLike) -> int:
     int
         Installs newly recorded [-].
     """
-    rows = []
-    for enclosure in site.records.enclosures:
-        for lamp in enclosure.lamps:
-            hours = lamp.daily_hours
-            if hours is None:
-                hours = schedule_daily_hours(site.schedule(lamp.schedule))
-            for installed_on in (*lamp.earlier_installs, lamp.installed):  # replacements
-                rows.append(dict(enclosure=enclosure.id, lamp=lamp.id, installed_on=installed_on,
-                                 daily_hours=hours, lamp_model=lamp.model))
-    return history.record_lamp_installs(db_path, rows)
+    return history.record_lamp_installs(db_path, _install_rows(site))
 
 
 def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, today=None,
@@ -173,10 +198,75 @@ def basking_uvi_targets(site) -> dict[str, float]:
     return targets
 
 
+def meter_corrected(site, readings: pd.DataFrame) -> tuple[pd.DataFrame, set]:
+    """UV Index readings with ``value_si`` corrected for meter spectral mismatch where possible.
+
+    Where the site gives a meter's spectral response and the lamp's spectrum is known
+    (:func:`audit_lib.pipeline.meter_corrections.site_meter_corrections`), ``value_si`` is
+    F* x raw; other readings are kept raw. Returns the readings and the set of
+    ``(enclosure, lamp)`` whose readings were corrected.
+    """
+    factors = {(r.meter, r.enclosure, r.lamp): r.correction_factor
+               for r in site_meter_corrections(site).itertuples(index=False)}
+    if not factors or readings.empty:
+        return readings, set()
+    fixed = correct_readings(readings, factors)
+    use = fixed["value_si_corrected"].notna()
+    readings = readings.copy()
+    readings.loc[use, "value_si"] = fixed.loc[use, "value_si_corrected"]
+    return readings, set(zip(readings.loc[use, "enclosure"], readings.loc[use, "lamp"],
+                             strict=True))
+
+
+def lamp_forecasts(site, readings: pd.DataFrame, installs: pd.DataFrame, *, today,
+                   target_uvi: float | None = None, correct_meters: bool = True):
+    """The one lamp forecast: decay fits and replacement dates of a site's lamps.
+
+    Used by the enclosure report (readings from the site folder), the site overview (the
+    reports' results) and ``light-audit forecast`` (readings from the history database):
+    the same readings and installs give the same dates everywhere.
+
+    Parameters
+    ----------
+    site : audit_lib.site.folder.Site
+        A loaded site (zones, meters and lamp spectra).
+    readings : pandas.DataFrame
+        Readings (contract columns), raw as taken.
+    installs : pandas.DataFrame
+        Lamp installs (:func:`site_lamp_installs` or the history store's).
+    today : date-like
+        Day of the forecast (the audit day in a report).
+    target_uvi : float, optional
+        One basking UV Index threshold for every lamp, instead of the zone ranges [-].
+    correct_meters : bool
+        Fit UV Index readings corrected for meter spectral mismatch (:func:`meter_corrected`).
+
+    Returns
+    -------
+    (pandas.DataFrame, list of LampDecay)
+        :func:`audit_lib.history.decay.schedule_table` columns plus ``age_days`` and
+        ``meter_corrected``; the analyses of the lamps with readings.
+    """
+    thresholds = basking_uvi_targets(site) if target_uvi is None else float(target_uvi)
+    corrected_lamps: set = set()
+    if correct_meters:
+        readings, corrected_lamps = meter_corrected(site, readings)
+    pairs = decay.lamp_decays(readings, installs, thresholds, today=today)
+    table = decay.schedule_table(pairs)
+    table.insert(4, "age_days", [(pd.Timestamp(today) - pd.Timestamp(t)).days
+                                 for t in table["installed_on"]])
+    table["meter_corrected"] = [(e, lp) in corrected_lamps
+                                for e, lp in zip(table["enclosure"], table["lamp"], strict=True)]
+    return table, [d for _, d in pairs if len(d.points)]
+
+
 def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=None,
                               target_uvi: float | None = None,
                               correct_meters: bool = True) -> pd.DataFrame:
     """Replacement schedule of every lamp of a site, from its history database.
+
+    The history's readings and installs go through :func:`lamp_forecasts`, the forecast the
+    enclosure reports use.
 
     Parameters
     ----------
@@ -195,8 +285,7 @@ def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=
     Returns
     -------
     pandas.DataFrame
-        :func:`audit_lib.history.decay.replacement_schedule` columns plus ``meter_corrected``
-        (True if that lamp's readings were corrected).
+        See :func:`lamp_forecasts`.
     """
     site = load_site(site_path, today=today)
     db_path = default_db_path(site_path) if db_path is None else Path(db_path)
@@ -204,23 +293,10 @@ def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=
         raise InputError("no history database yet", path=db_path,
                          hint=f"run 'light-audit import {site_path}' first")
     sync_lamp_installs(site, db_path)
-    thresholds = basking_uvi_targets(site) if target_uvi is None else float(target_uvi)
-    readings = history.read_all_readings(db_path)
-    corrected_lamps: set = set()
-    if correct_meters:
-
-        factors = {(r.meter, r.enclosure, r.lamp): r.correction_factor
-                   for r in site_meter_corrections(site).itertuples(index=False)}
-        if factors:
-            fixed = correct_readings(readings, factors)
-            use = fixed["value_si_corrected"].notna()
-            readings.loc[use, "value_si"] = fixed.loc[use, "value_si_corrected"]
-            corrected_lamps = set(zip(readings.loc[use, "enclosure"], readings.loc[use, "lamp"],
-                                      strict=True))
-    table = decay.replacement_schedule(readings, history.read_lamp_installs(db_path),
-                                       thresholds, today=today)
-    table["meter_corrected"] = [(e, lp) in corrected_lamps
-                                for e, lp in zip(table["enclosure"], table["lamp"], strict=True)]
+    today = pd.Timestamp.today().normalize() if today is None else today
+    table, _ = lamp_forecasts(site, history.read_all_readings(db_path),
+                              history.read_lamp_installs(db_path), today=today,
+                              target_uvi=target_uvi, correct_meters=correct_meters)
     return table
 
 

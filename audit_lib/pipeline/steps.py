@@ -1,26 +1,23 @@
 """The stages of an enclosure audit, each a thin call of the part that owns it.
 
-Used by :func:`audit_lib.pipeline.audit.audit_enclosure`; the choices these functions make (which
-figure feeds which check, how the model is calibrated to readings) are described in
-:mod:`audit_lib.pipeline.audit`.
+Used by the audit (:mod:`audit_lib.pipeline.audit`), the what-if planner
+(:mod:`audit_lib.pipeline.planner`) and their shared downstream
+(:mod:`audit_lib.pipeline.findings`), where the choices these functions serve are described.
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import math
-import warnings
 from dataclasses import replace
 
 import numpy as np
 import pandas as pd
 
-from audit_lib.errors import AuditWarning, InputError
-from audit_lib.history.decay import lamp_decays, schedule_table
+from audit_lib.errors import InputError
 from audit_lib.light.metrics import keeper_limit_s, spectrum_metrics
 from audit_lib.light.spectra import Spectrum
 from audit_lib.pipeline.assemble import model_spectrum
-from audit_lib.pipeline.forecast import schedule_daily_hours
 from audit_lib.pipeline.meter_corrections import correct_site_readings
 from audit_lib.scene.failures import failure_scenarios, monte_carlo_failures
 from audit_lib.scene.maps import evaluate_points, surface_grid
@@ -129,22 +126,6 @@ def budget_places(record, scene):
     return places
 
 
-def lamp_table(site, record, audit_date, threshold):
-    """Replacement schedule rows and decay analyses of an enclosure's lamps."""
-    installs = pd.DataFrame([{
-        "enclosure": record.id, "lamp": p.id, "installed_on": pd.Timestamp(p.installed),
-        "removed_on": pd.NaT, "lamp_model": p.model, "note": p.note,
-        "daily_hours": p.daily_hours if p.daily_hours is not None else
-        schedule_daily_hours(site.schedule(p.schedule))} for p in record.lamps])
-    if installs.empty:
-        return installs, []
-    pairs = lamp_decays(site.readings_of(record.id), installs, threshold, today=audit_date)
-    table = schedule_table(pairs)
-    table.insert(4, "age_days", [(pd.Timestamp(audit_date) - t).days
-                                 for t in table["installed_on"]])
-    return table, [decay for _, decay in pairs if len(decay.points)]
-
-
 def lamp_spectra(site, record, scene):
     """Spectrum metrics per lamp model (LED arrays: flux-weighted sum of emitter types)."""
     spectra, metrics = {}, {}
@@ -185,28 +166,6 @@ def keeper_limit(scene, record, failed):
         if math.isfinite(actinic):
             limits.append(float(keeper_limit_s(actinic)))
     return min(limits) if limits else None
-
-
-def height_for_uvi(scene, lamp, point, failed, calibration):
-    """Callable: lamp height above the basking point giving a UV Index there [UVI -> m]."""
-    from scipy.optimize import brentq
-
-
-    def uvi_at(height):
-        moved = replace(lamp, z_m=point[2] + height)
-        with warnings.catch_warnings():  # scanning heights leaves any measured range
-            warnings.simplefilter("ignore", AuditWarning)
-            ev = evaluate_points(only_lamp(scene, moved), point[None, :], ("uvi",),
-                                 failed=failed_of(failed, lamp.id))
-        return calibration * float(ev.values["uvi"][0])
-
-    def height_for(target):
-        lo, hi = 0.03, 3.0
-        if not uvi_at(lo) >= target >= uvi_at(hi):
-            return math.nan
-        return float(brentq(lambda h: uvi_at(h) - target, lo, hi, xtol=1e-3))
-
-    return height_for
 
 
 def failure_table(scene, surface, failed, uvi_range, calibration, probability, seed=0):

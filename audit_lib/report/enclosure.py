@@ -15,6 +15,8 @@ from html import escape
 import numpy as np
 import pandas as pd
 
+from audit_lib.judge.targets import KEEPER_EXPOSURE_TIME
+from audit_lib.judge.verdicts import unanswered_sentence
 from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.index_page import state_class
 
@@ -59,12 +61,61 @@ def _finite(value):
     return value if math.isfinite(value) else None
 
 
+def _iso(value) -> str | None:
+    """An ISO date, or None for a missing one."""
+    if value is None or (not isinstance(value, str) and pd.isna(value)):
+        return None
+    return pd.Timestamp(value).date().isoformat()
+
+
+def check_entries(audit) -> list[dict]:
+    """Every check as ``results.json`` holds it (stable ``check_id``; infinite limits as null)."""
+    many = len(audit.verdicts) > 1
+    return [{"check_id": c.id, "name": f"{c.name} ({v.species})" if many else c.name,
+             "species": v.species, "value": _finite(c.value), "unit": c.unit,
+             "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
+             "state": c.state, "reason": c.reason}
+            for v in audit.verdicts for c in v.checks]
+
+
+def lamp_entries(audit) -> list[dict]:
+    """Every lamp in place with its age and the one replacement forecast."""
+    t = audit.lamps
+    if t is None or not len(t):
+        return []
+    return [{"id": r.lamp, "model": r.lamp_model, "installed_on": _iso(r.installed_on),
+             "hours_now": _finite(r.hours_now), "age_days": int(r.age_days),
+             "last_uvi": _finite(r.last_value), "target_min_uvi": _finite(r.target_min),
+             "replace_by": _iso(r.replace_by), "forecast_state": r.state,
+             "meter_corrected": bool(r.meter_corrected)}
+            for r in t.itertuples(index=False)]
+
+
+def action_entries(audit) -> list[dict]:
+    """Every recommended action (``height_m``: new lamp face height above the floor)."""
+    return [{"kind": a.kind, "check_id": a.check or None, "lamp": a.lamp, "text": a.text,
+             "height_m": _finite(a.height_m)} for a in audit.actions]
+
+
+def enclosure_results(audit) -> dict:
+    """The enclosure's entry in ``results.json`` (docs/batch-reports.md lists every key).
+
+    The site overview and the index read these entries, never the audit again, so each
+    figure there is the report's.
+    """
+    return {"id": audit.enclosure_id, "name": audit.enclosure_name,
+            "audit_date": audit.audit_date.isoformat(),
+            "zone": audit.zone.zone if audit.zone is not None else None,
+            "verdict": audit.verdict, "reason": audit.reason,
+            "recommendation": audit.recommendation, "checks": check_entries(audit),
+            "actions": action_entries(audit), "lamps": lamp_entries(audit)}
+
+
 def report_data(audit) -> dict:
     """The JSON-able data the batch reads from an executed workbook.
 
     ``report`` fills the template's header and provenance; ``results`` is the enclosure's
-    entry in ``results.json`` (verdict and every check with figure, unit, target range,
-    state and reason; infinite limits as null).
+    entry in ``results.json`` (:func:`enclosure_results`).
     """
     facts = [("Site", audit.site_name),
              ("Enclosure", f"{audit.enclosure_name} ({audit.enclosure_id})"),
@@ -72,9 +123,6 @@ def report_data(audit) -> dict:
     facts += [(label, value) for label, value in (
         ("Auditor", audit.auditor), ("Organisation", audit.organisation),
         ("Client", audit.client)) if value]
-    checks = [{"name": c.name, "value": _finite(c.value), "unit": c.unit,
-               "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
-               "state": c.state, "reason": c.reason} for c in audit.checks]
     provenance = [(k.replace("_", " ").capitalize(), str(v)) for k, v in audit.provenance.items()]
     return {
         "report": {"kind": "Enclosure lighting audit",
@@ -82,8 +130,7 @@ def report_data(audit) -> dict:
                    "logo_path": audit.logo_path, "cautions": list(CAUTIONS),
                    "provenance": provenance,
                    "library_version": audit.provenance.get("library_version", "")},
-        "results": {"id": audit.enclosure_id, "name": audit.enclosure_name,
-                    "verdict": audit.verdict, "reason": audit.reason, "checks": checks},
+        "results": enclosure_results(audit),
     }
 
 
@@ -133,11 +180,15 @@ def checks_table(audit) -> HTMLBlock:
 
 
 def actions_list(audit) -> HTMLBlock:
-    """Recommended actions, each with the numbers it rests on."""
+    """Recommended actions, each with its numbers; "no change" only when every check is met."""
     items = "".join(f"<li><strong>{escape(a.kind)}</strong>: {escape(a.text)}</li>"
                     for a in audit.actions)
-    return HTMLBlock(f'<ul class="actions">{items}</ul>' if items else
-                     "<p>No action needed on the checks made.</p>")
+    left = unanswered_sentence(audit.checks, audit.actions)
+    if left:
+        items += f"<li>{escape(left)}</li>"
+    if items:
+        return HTMLBlock(f'<ul class="actions">{items}</ul>')
+    return HTMLBlock(f"<p>{escape(audit.recommendation)}</p>")
 
 
 def surface_table(audit) -> pd.DataFrame:
@@ -219,7 +270,8 @@ def lamps_table(audit) -> pd.DataFrame:
     if t is None or not len(t):
         return pd.DataFrame({"note": ["no lamps"]})
     keep = ["lamp", "lamp_model", "installed_on", "age_days", "hours_now", "points", "model",
-            "loss_per_1000h_pct", "last_value", "target_min", "replace_by", "state"]
+            "loss_per_1000h_pct", "last_value", "target_min", "replace_by", "state",
+            "meter_corrected"]
     out = t[[c for c in keep if c in t.columns]].copy()
     numeric = out.select_dtypes("number").columns
     out[numeric] = out[numeric].round(2)
@@ -242,7 +294,7 @@ def safety_table(audit) -> HTMLBlock:
     """Keeper-safety figures: the keeper check, and each lamp model's indicative risk group."""
     rows = []
     for c in audit.checks:
-        if c.name.startswith("keeper exposure limit"):
+        if c.id == KEEPER_EXPOSURE_TIME:
             rows.append((c.name, f"{_num(c.value, 0)} {c.unit}", _badge(c.state), c.reason))
     for model, m in audit.spectra.items():
         distance_mm = 1000 * (m.get("risk_group_distance_m") or math.nan)

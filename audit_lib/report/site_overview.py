@@ -1,60 +1,170 @@
-"""Tables and the figure of the site overview (views of a site audit)."""
+"""The site overview: every enclosure's verdict, basking maximum and lamps, read from results.
+
+The overview audits nothing of its own. In a batch it reads the enclosures' entries of
+``results.json`` (the reports' own results, :func:`audit_lib.report.enclosure.enclosure_results`);
+run alone from its workbook it audits each enclosure through the same pipeline at the
+reports' map spacing and takes the same entries. Either way each figure here is the
+enclosure report's figure. Checks are found by their stable id.
+"""
 
 from __future__ import annotations
 
+import datetime as dt
+import json
 import math
+from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
+from audit_lib.errors import AuditError, InputError
+from audit_lib.judge.targets import (
+    ABOVE,
+    ANIMAL_UVI_MEAN,
+    BASKING_UVI_MAX,
+    BELOW,
+    REFUGE_FLOOR_SHARE,
+)
+from audit_lib.pipeline.audit import DEFAULT_SPACING_M, audit_enclosure, choose_audit_date
 from audit_lib.report.cautions import CAUTIONS
-from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE
+from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE, enclosure_results
 from audit_lib.report.style import PALETTE, STATE_COLOURS, new_figure
 
-
-def _check(audit, name: str):
-    for c in audit.checks:
-        if c.name.startswith(name):
-            return c
-    return None
+COULD_NOT_AUDIT = "could not be audited"
 
 
-def verdict_table(overview) -> pd.DataFrame:
-    """One row per enclosure: verdict, species zone, basking maximum, animal mean, refuge."""
+@dataclass
+class SiteOverview:
+    """Every enclosure of a site as its report's results give it.
+
+    Attributes
+    ----------
+    site_name : str
+        The site.
+    audit_date : datetime.date
+        The audit day.
+    enclosures : list of dict
+        ``results.json`` entries of the enclosures that were audited, in site order.
+    errors : dict of str to str
+        Enclosure id to the error that stopped its audit.
+    auditor, organisation, client : str
+        From the site file.
+    logo_path : str or None
+        The site's logo.
+    """
+
+    site_name: str
+    audit_date: dt.date
+    enclosures: list = field(default_factory=list)
+    errors: dict = field(default_factory=dict)
+    auditor: str = ""
+    organisation: str = ""
+    client: str = ""
+    logo_path: str | None = None
+
+
+def site_overview(site, *, results_json: str = "", audit_date=None,
+                  spacing_m: float = DEFAULT_SPACING_M) -> SiteOverview:
+    """The overview of a site, from a batch's results or by auditing each enclosure.
+
+    Parameters
+    ----------
+    site : audit_lib.site.folder.Site
+        A loaded site.
+    results_json : str or PathLike
+        A batch's ``results.json``; its enclosure entries are used as they are. Empty: each
+        enclosure is audited here (:func:`audit_lib.pipeline.audit.audit_enclosure`, no
+        failure study, which feeds no check) and turned into the same entries.
+    audit_date : str or datetime.date, optional
+        Audit day (default :func:`audit_lib.pipeline.audit.choose_audit_date`).
+    spacing_m : float
+        Map spacing when auditing here: the enclosure reports' by default [m].
+
+    Raises
+    ------
+    InputError
+        ``results_json`` cannot be read, or belongs to another site.
+    """
+    info = site.records.site
+    day = choose_audit_date(site, audit_date)
+    overview = SiteOverview(site.name, day, auditor=info.auditor,
+                            organisation=info.organisation, client=info.client,
+                            logo_path=str(site.path_of(info.logo)) if info.logo else None)
+    if results_json:
+        path = Path(results_json)
+        try:
+            doc = json.loads(path.read_text(encoding="utf-8"))
+        except (OSError, ValueError) as exc:
+            raise InputError(f"cannot read the batch results: {exc}", path=path,
+                             field="results_json") from None
+        if doc.get("site") != site.name:
+            raise InputError(f"the results belong to site {doc.get('site')!r}, not "
+                             f"{site.name!r}", path=path, field="site")
+        for entry in doc.get("enclosures", []):
+            if entry.get("error"):
+                overview.errors[entry["id"]] = entry["error"]
+            elif entry.get("verdict"):
+                overview.enclosures.append(entry)
+        dates = {e.get("audit_date") for e in overview.enclosures} - {None}
+        if len(dates) == 1:
+            overview.audit_date = dt.date.fromisoformat(dates.pop())
+        return overview
+    for record in site.records.enclosures:
+        try:
+            audit = audit_enclosure(site, record.id, audit_date=day, spacing_m=spacing_m,
+                                    with_failures=False)
+        except (AuditError, ValueError, ArithmeticError) as exc:
+            overview.errors[record.id] = f"{type(exc).__name__}: {exc}"
+        else:
+            overview.enclosures.append(enclosure_results(audit))
+    return overview
+
+
+def find_check(entry: dict, check_id: str) -> dict | None:
+    """The first check of an enclosure entry with this id (the first species'), or None."""
+    return next((c for c in entry.get("checks", []) if c.get("check_id") == check_id), None)
+
+
+def _value(check, scale=1.0):
+    if check is None or check.get("value") is None:
+        return math.nan
+    return scale * float(check["value"])
+
+
+def verdict_table(overview: SiteOverview) -> pd.DataFrame:
+    """One row per enclosure: verdict, zone, basking maximum, animal mean, refuge share."""
     rows = []
-    for a in overview.audits:
-        bask, mean, refuge = (_check(a, n) for n in (
-            "basking UV Index maximum", "mean UV Index of the animal", "low-UV refuge"))
+    for e in overview.enclosures:
+        bask = find_check(e, BASKING_UVI_MAX)
         rows.append({
-            "enclosure": a.enclosure_id, "name": a.enclosure_name, "verdict": a.verdict,
-            "zone": a.zone.zone if a.zone else None,
-            "basking_max_uvi": bask.value if bask else math.nan,
-            "basking_state": bask.state if bask else "",
-            "animal_mean_uvi": mean.value if mean and mean.value is not None else math.nan,
-            "refuge_share_pct": 100 * refuge.value if refuge and refuge.value is not None
-            else math.nan,
-            "checks_out_of_range": sum(c.state in ("below range", "above range")
-                                       for c in a.checks)})
+            "enclosure": e["id"], "name": e["name"], "verdict": e["verdict"],
+            "zone": e.get("zone"), "basking_max_uvi": _value(bask),
+            "basking_state": bask["state"] if bask else "",
+            "animal_mean_uvi": _value(find_check(e, ANIMAL_UVI_MEAN)),
+            "refuge_share_pct": _value(find_check(e, REFUGE_FLOOR_SHARE), 100.0),
+            "checks_out_of_range": sum(c["state"] in (BELOW, ABOVE) for c in e["checks"])})
     for enclosure_id, error in overview.errors.items():
-        rows.append({"enclosure": enclosure_id, "verdict": "could not be audited",
-                     "name": error})
+        rows.append({"enclosure": enclosure_id, "verdict": COULD_NOT_AUDIT, "name": error})
+    if not rows:
+        return pd.DataFrame({"note": ["no enclosures"]})
     return pd.DataFrame(rows).set_index("enclosure").round(2)
 
 
-def plot_basking_ranges(overview):
-    """Basking maximum UV Index of each enclosure against its zone's range."""
-    audits = [a for a in overview.audits if a.zone is not None]
-    fig, ax = new_figure(7.5, max(2.5, 0.32 * len(audits) + 1.0))
-    y = np.arange(len(audits))
-    for i, a in enumerate(audits):
-        ax.plot([a.zone.max_uvi_low, a.zone.max_uvi_high], [i, i], color=PALETTE["bluish green"],
-                lw=8, alpha=0.35, solid_capstyle="butt")
-        c = _check(a, "basking UV Index maximum")
-        if c is not None and c.value is not None:
-            marker = {"within range": "o", "below range": "<", "above range": ">"}.get(c.state, "s")
-            ax.plot(c.value, i, marker=marker, color=STATE_COLOURS.get(c.state, "#999999"),
+def plot_basking_ranges(overview: SiteOverview):
+    """Basking maximum UV Index of each enclosure against its zone's range (the check's)."""
+    found = [(e["id"], c) for e in overview.enclosures
+             if (c := find_check(e, BASKING_UVI_MAX)) is not None]
+    fig, ax = new_figure(7.5, max(2.5, 0.32 * len(found) + 1.0))
+    for i, (_, c) in enumerate(found):
+        high = c["target_high"] if c["target_high"] is not None else c["target_low"]
+        ax.plot([c["target_low"], high], [i, i], color=PALETTE["bluish green"], lw=8,
+                alpha=0.35, solid_capstyle="butt")
+        if c["value"] is not None:
+            marker = {"within range": "o", BELOW: "<", ABOVE: ">"}.get(c["state"], "s")
+            ax.plot(c["value"], i, marker=marker, color=STATE_COLOURS.get(c["state"], "#999999"),
                     markersize=8, markeredgecolor="black")
-    ax.set_yticks(y, [a.enclosure_id for a in audits], fontsize=8)
+    ax.set_yticks(np.arange(len(found)), [i for i, _ in found], fontsize=8)
     ax.invert_yaxis()
     ax.set_xlabel("basking maximum UV Index [-]  (band: zone range; ◀ below, ● within, ▶ above)")
     ax.grid(axis="x", alpha=0.3)
@@ -62,16 +172,16 @@ def plot_basking_ranges(overview):
     return fig
 
 
-def replacement_table(overview) -> pd.DataFrame:
+def replacement_table(overview: SiteOverview) -> pd.DataFrame:
     """Every lamp of the site with its state and forecast date, most urgent first."""
-    tables = [a.lamps for a in overview.audits if a.lamps is not None and len(a.lamps)]
-    if not tables:
+    rows = [{"enclosure": e["id"], "lamp": lamp["id"], "lamp_model": lamp["model"],
+             "age_days": lamp.get("age_days"), "last_uvi": lamp.get("last_uvi"),
+             "target_min_uvi": lamp.get("target_min_uvi"), "replace_by": lamp["replace_by"],
+             "state": lamp["forecast_state"]}
+            for e in overview.enclosures for lamp in e.get("lamps", [])]
+    if not rows:
         return pd.DataFrame({"note": ["no lamps"]})
-    t = pd.concat(tables, ignore_index=True)
-    keep = ["enclosure", "lamp", "lamp_model", "age_days", "last_value", "target_min",
-            "replace_by", "state"]
-    t = t[[c for c in keep if c in t.columns]].copy()
-    t["replace_by"] = pd.to_datetime(t["replace_by"]).dt.date
+    t = pd.DataFrame(rows)
     order = {"below target": 0, "due soon": 1}
     t["_rank"] = t["state"].map(lambda s: order.get(s, 2))
     t = t.sort_values(["_rank", "replace_by"], na_position="last").drop(columns="_rank")
@@ -79,28 +189,28 @@ def replacement_table(overview) -> pd.DataFrame:
     return t.round(2).set_index(["enclosure", "lamp"])
 
 
-def overview_data(overview) -> dict:
+def overview_data(overview: SiteOverview) -> dict:
     """Report data of the overview (header for the template; verdict counts as results)."""
     facts = [("Site", overview.site_name), ("Audit date", overview.audit_date.isoformat())]
     facts += [(label, value) for label, value in (
         ("Auditor", overview.auditor), ("Organisation", overview.organisation),
         ("Client", overview.client)) if value]
     counts = {}
-    for a in overview.audits:
-        counts[a.verdict] = counts.get(a.verdict, 0) + 1
+    for e in overview.enclosures:
+        counts[e["verdict"]] = counts.get(e["verdict"], 0) + 1
     return {"report": {"kind": "Lighting audit: site overview", "title": overview.site_name,
                        "facts": facts, "logo_path": overview.logo_path,
                        "cautions": list(CAUTIONS), "provenance": [
-                           ("Enclosures audited", str(len(overview.audits))),
+                           ("Enclosures audited", str(len(overview.enclosures))),
                            ("Enclosures with errors", str(len(overview.errors)))]},
             "results": {"id": "site-overview", "verdict": "overview",
                         "verdict_counts": counts, "checks": []}}
 
 
-def publish_overview_data(overview) -> None:
+def publish_overview_data(overview: SiteOverview) -> None:
     """Display the overview's report data for the batch (hidden in the report)."""
     from IPython.display import display
 
     display({REPORT_DATA_MIMETYPE: overview_data(overview),
-             "text/plain": f"overview data recorded: {len(overview.audits)} enclosures"},
+             "text/plain": f"overview data recorded: {len(overview.enclosures)} enclosures"},
             raw=True)

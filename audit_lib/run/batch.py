@@ -1,7 +1,9 @@
 """The batch audit run: one report per enclosure, a site overview, an index and results files.
 
 ``run_batch`` validates the site first (nothing runs on an invalid site), then executes the
-enclosure workbook once per enclosure with papermill in a pool of worker processes. Each
+enclosure workbook once per enclosure with papermill in a pool of worker processes, writes
+``results.json``, and then runs the site overview workbook on that file: the overview reads
+the enclosures' results and audits nothing again, so its figures are the reports'. Each
 worker imports the heavy libraries once, keeps one warm kernel and converts in-process with a
 cached exporter (:mod:`audit_lib.run.notebooks`). Every file is written atomically; a failed
 enclosure is listed with its error and does not stop the others; a rerun completes the set.
@@ -18,11 +20,7 @@ APIs); the process pool is Python's ``concurrent.futures``.
 
 from __future__ import annotations
 
-import csv
-import datetime as dt
-import io
 import json
-import math
 import os
 import re
 import time
@@ -45,6 +43,13 @@ from audit_lib.run.notebooks import (
     read_report_data,
     write_atomic,
 )
+from audit_lib.run.results import (  # noqa: F401 - part of this module's interface
+    CHECK_KEYS,
+    CSV_COLUMNS,
+    RESULT_KEYS,
+    results_csv,
+    results_document,
+)
 from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site
 
@@ -52,10 +57,6 @@ ENCLOSURE_WORKBOOK = WORKBOOKS_DIR / "enclosure_report.ipynb"
 OVERVIEW_WORKBOOK = WORKBOOKS_DIR / "site_overview.ipynb"
 OVERVIEW_ID = "site-overview"
 REPORTS_DIR = "reports"
-#: Columns of ``results.csv`` (one row per check; one row per enclosure that failed).
-CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "value", "unit",
-               "target_low", "target_high", "state", "reason", "error")
-_CHECK_KEYS = ("name", "value", "unit", "target_low", "target_high", "state", "reason")
 #: Code a worker's kernel runs once, while the main process validates the site: the heavy
 #: imports, one small figure, one spectrum's metrics and the site itself, so fonts, colour
 #: tables, unit tables and cached weights are loaded before the first workbook; then the
@@ -117,7 +118,10 @@ class EnclosureOutcome:
     report, notebook : str or None
         HTML report and executed workbook, relative to the output folder.
     checks : list of dict
-        Every check: name, value, unit, target_low, target_high, state, reason.
+        Every check (:data:`CHECK_KEYS`).
+    results : dict
+        The rest of the workbook's results (:data:`RESULT_KEYS`: audit date, zone, reason,
+        recommendation, actions, lamps).
     error : str or None
         Why the enclosure could not be audited.
     seconds : float
@@ -130,6 +134,7 @@ class EnclosureOutcome:
     report: str | None = None
     notebook: str | None = None
     checks: list = field(default_factory=list)
+    results: dict = field(default_factory=dict)
     error: str | None = None
     seconds: float = 0.0
 
@@ -248,6 +253,7 @@ def _run_task(task: dict) -> dict:
         os.replace(tmp_nb, nb_path)
         results = data["results"]
         result.update(verdict=results.get("verdict"), checks=results.get("checks", []),
+                      results={k: results[k] for k in RESULT_KEYS if k in results},
                       report=f"{REPORTS_DIR}/{html_path.name}",
                       notebook=f"{REPORTS_DIR}/{nb_path.name}")
     except PapermillExecutionError as exc:
@@ -267,7 +273,7 @@ def _run_task(task: dict) -> dict:
 
 
 def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str | None,
-           workbook: Path, overview: Path | None) -> list[dict]:
+           workbook: Path) -> list[dict]:
     tasks = []
     for enclosure_id in ids:
         params = {"site_dir": str(site_dir), "enclosure_id": enclosure_id}
@@ -276,15 +282,17 @@ def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str 
         tasks.append({"id": enclosure_id, "name": site.enclosure(enclosure_id).name,
                       "stem": safe_stem(enclosure_id), "workbook": str(workbook),
                       "parameters": params, "out_dir": str(out_dir)})
-    if overview is not None:
-        params = {"site_dir": str(site_dir)}
-        if audit_date:
-            params["audit_date"] = audit_date
-        # the longest workbook goes first so it does not run alone at the end
-        tasks.insert(0, {"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
-                         "workbook": str(overview), "parameters": params,
-                         "out_dir": str(out_dir), "overview": True})
     return tasks
+
+
+def _overview_task(site_dir: Path, out_dir: Path, audit_date: str | None,
+                   workbook: Path) -> dict:
+    """The overview workbook on the run's ``results.json`` (written before it runs)."""
+    params = {"site_dir": str(site_dir), "results_json": str(out_dir / "results.json")}
+    if audit_date:
+        params["audit_date"] = audit_date
+    return {"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
+            "workbook": str(workbook), "parameters": params, "out_dir": str(out_dir)}
 
 
 def _select(site, only) -> list[str]:
@@ -312,46 +320,10 @@ def _previous(out_dir: Path, site_name: str) -> dict[str, EnclosureOutcome]:
         report = item.get("report")
         if item.get("verdict") and report and (out_dir / report).is_file():
             known = {k: item.get(k) for k in ("id", "name", "verdict", "report", "notebook")}
-            kept[item["id"]] = EnclosureOutcome(**known, checks=item.get("checks", []))
+            kept[item["id"]] = EnclosureOutcome(**known, checks=item.get("checks", []),
+                                                results={k: item[k] for k in RESULT_KEYS
+                                                         if k in item})
     return kept
-
-
-def _clean(value):
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
-
-
-def results_document(result: BatchResult) -> dict:
-    """Return the ``results.json`` content of a batch run (JSON-able, no NaN)."""
-    def one(o: EnclosureOutcome) -> dict:
-        checks = [{k: _clean(c.get(k)) for k in _CHECK_KEYS} for c in o.checks]
-        return {"id": o.id, "name": o.name, "verdict": o.verdict, "report": o.report,
-                "notebook": o.notebook, "error": o.error, "checks": checks}
-
-    doc = {"site": result.site_name, "library_version": __version__,
-           "generated": dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds"),
-           "enclosures": [one(o) for o in result.outcomes]}
-    if result.overview is not None:
-        doc["overview"] = {k: v for k, v in one(result.overview).items() if k != "checks"}
-    return doc
-
-
-def results_csv(doc: dict) -> str:
-    """Return ``results.csv``: one row per check, one row per enclosure without checks."""
-    buf = io.StringIO()
-    writer = csv.DictWriter(buf, fieldnames=CSV_COLUMNS, lineterminator="\n")
-    writer.writeheader()
-    for enc in doc["enclosures"]:
-        base = {"enclosure": enc["id"], "enclosure_name": enc["name"],
-                "verdict": enc["verdict"] or "", "error": enc["error"] or ""}
-        if not enc["checks"]:
-            writer.writerow(base)
-        for check in enc["checks"]:
-            row = dict(base, check=check["name"])
-            row.update({k: ("" if check[k] is None else check[k]) for k in _CHECK_KEYS[1:]})
-            writer.writerow(row)
-    return buf.getvalue()
 
 
 def _start_pool(jobs: int, site_dir: Path) -> ProcessPoolExecutor:
@@ -371,7 +343,13 @@ def _execute(pool: ProcessPoolExecutor, tasks: list[dict], progress: bool) -> li
     from tqdm import tqdm
 
     done: list[dict] = []
-    futures = {pool.submit(_run_task, t): t for t in tasks}
+    futures = {}
+    for t in tasks:
+        try:
+            futures[pool.submit(_run_task, t)] = t
+        except BrokenProcessPool:  # a worker ended before this task could be queued
+            done.append({"id": t["id"], "name": t["name"], "error":
+                         "the worker process for this workbook ended unexpectedly"})
     bar = tqdm(total=len(tasks), unit="workbook", desc="auditing", disable=not progress)
     try:
         for future in as_completed(futures):
@@ -392,14 +370,12 @@ def _execute(pool: ProcessPoolExecutor, tasks: list[dict], progress: bool) -> li
 
 
 def _order(tasks: list[dict], site) -> list[dict]:
-    """Longest first: the overview, then enclosures by their number of lamps and surfaces.
+    """Longest first: enclosures by their number of lamps and surfaces.
 
     With a few workers and a dozen workbooks, starting the long ones first keeps a long
     one from running alone at the end (longest-processing-time-first scheduling).
     """
     def weight(task: dict) -> int:
-        if task.get("overview"):
-            return 1_000_000
         enclosure = site.enclosure(task["id"])
         return sum(len(getattr(enclosure, name, None) or ())
                    for name in ("lamps", "surfaces"))
@@ -426,7 +402,8 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         Date passed to the workbooks (default: the workbooks' own default); a string is
         read with :func:`audit_lib.site.dates.parse_date` before anything starts.
     overview : bool
-        Also run the site overview workbook.
+        Also run the site overview workbook, after the enclosures, on the run's
+        ``results.json`` (so it shows the reports' figures).
     progress : bool
         Show a progress bar on standard error.
     workbook, overview_workbook : str or PathLike, optional
@@ -449,7 +426,7 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
     out_dir = Path(out_dir).resolve()
     # at most one worker per workbook; the count of enclosures is known only after loading
     # the site, so it is bounded by ``only`` when given
-    limit = len(set(only)) + bool(overview) if only else None
+    limit = len(set(only)) if only else None
     jobs = max(1, min(jobs or os.cpu_count() or 1, limit or 1_000_000))
     pool = _start_pool(jobs, site_dir)  # workers start their kernels while the site is validated
     try:
@@ -466,29 +443,31 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         previous = _previous(out_dir, site.name)
         workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()
         overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
-        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook,
-                       overview_workbook if overview and overview_workbook.exists() else None)
+        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook)
+        run_overview = overview and overview_workbook.exists()
     except BaseException:
         # bad input: report it now; the workers finish starting, then stop with their kernels
         pool.shutdown(wait=False, cancel_futures=True)
         raise
+
+    def outcome(d: dict) -> EnclosureOutcome:
+        return EnclosureOutcome(**{k: d[k] for k in d if k in
+                                   EnclosureOutcome.__dataclass_fields__})
+
     try:
         by_id = {d["id"]: d for d in _execute(pool, _order(tasks, site), progress)}
+        outcomes = [outcome(by_id[e.id]) if e.id in by_id else
+                    previous.get(e.id, EnclosureOutcome(id=e.id, name=e.name))
+                    for e in site.records.enclosures]
+        result = BatchResult(site_name=site.name, out_dir=out_dir, outcomes=outcomes)
+        write_outputs(result, site)
+        if run_overview:  # reads the results.json just written: the reports' own figures
+            task = _overview_task(site_dir, out_dir, audit_date, overview_workbook)
+            for done in _execute(pool, [task], progress):
+                result.overview = outcome(done)
+                write_outputs(result, site)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
-
-    def outcome(enclosure_id: str, name: str) -> EnclosureOutcome:
-        if enclosure_id in by_id:
-            d = by_id[enclosure_id]
-            return EnclosureOutcome(**{k: d[k] for k in d if k in
-                                       EnclosureOutcome.__dataclass_fields__})
-        return previous.get(enclosure_id, EnclosureOutcome(id=enclosure_id, name=name))
-
-    outcomes = [outcome(e.id, e.name) for e in site.records.enclosures]
-    result = BatchResult(site_name=site.name, out_dir=out_dir, outcomes=outcomes,
-                         overview=outcome(OVERVIEW_ID, "Site overview")
-                         if OVERVIEW_ID in by_id else None)
-    write_outputs(result, site)
     return result
 
 

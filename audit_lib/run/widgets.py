@@ -440,13 +440,13 @@ class WhatIfPanel:
         self.map_image.value = self.map_view.png()
         self.daily_image.value = self.daily_view.png()
         self.summary.value = _summary_html(result)
-        if result.verdict is not None:
-
-            self.verdict.value = verdict_html(result.verdict)
+        if result.verdicts:
+            self.verdict.value = "".join(verdict_html(v) for v in result.verdicts)
         else:
             self.verdict.value = "<p>No species with a known zone is chosen.</p>"
         self.recommendation.value = f"<p>{html.escape(result.recommendation)}</p>"
-        notes = dict.fromkeys([*self._load_notes, *result.notes])
+        shown = {n for v in result.verdicts for n in v.notes}  # in the verdict block above
+        notes = dict.fromkeys(n for n in [*self._load_notes, *result.notes] if n not in shown)
         self.notes.value = "".join(f"<p><strong>Note:</strong> {html.escape(n)}</p>"
                                    for n in notes)
 

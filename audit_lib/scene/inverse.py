@@ -1,9 +1,18 @@
-"""Inverse questions: which mount height brings a basking surface into its UVI range.
+"""Inverse questions: which mount height or emitter count brings a surface into its UVI range.
 
-The lamp is moved vertically (x, y, tilt kept) over a grid of heights, the surface map
-is recomputed at each (cheap: weight first, place second) and the heights whose
-statistic lies inside the range are reported. A scan, not a root search, so several
-separate height bands (possible with tilted or off-centre lamps) are all found.
+The one search of each kind in the library: report actions, the what-if planner and users
+all call :func:`height_for_target` and :func:`emitter_count_for_target`.
+
+Height: the lamp is moved vertically (x, y, tilt kept) over a grid of heights bounded by
+the enclosure (never above its top, or above the lamp's present mount when that is already
+above the top, e.g. on a mesh roof), the surface statistic is recomputed at each height
+(cheap: weight first, place second; the other lamps are evaluated once) and the heights
+whose statistic lies inside the range are reported. A scan, not a root search, so several
+separate height bands (possible with tilted or off-centre lamps) are all found; an aimed-at
+value inside the range is located by linear interpolation between scanned heights.
+
+This module answers with numbers only; sentences for a report are built from them in
+:mod:`audit_lib.judge.verdicts`.
 """
 
 from __future__ import annotations
@@ -18,6 +27,12 @@ from audit_lib.sources.lamps import EmitterPosition, LedArray
 
 #: Statistics of the surface UVI that :func:`height_for_target` can aim at.
 HEIGHT_STATISTICS = ("max", "mean")
+#: Lowest height scanned above the surface, and the scan step [m].
+LOWEST_CLEARANCE_M = 0.05
+HEIGHT_STEP_M = 0.01
+#: With an aimed-at value, a first pass scans every 5th height; the heights between are
+#: scanned only where that pass crosses the aim or an end of the range.
+COARSE_EVERY = 5
 
 
 @dataclass(frozen=True)
@@ -35,18 +50,29 @@ class HeightAnswer:
     uvi_range : tuple of float
         Target (lo, hi) [-].
     heights_m : numpy.ndarray
-        Lamp heights scanned (lamp face above the floor) [m].
+        Lamp heights scanned (lamp face above the floor), bounded by ``top_m`` [m]; with an
+        aimed-at value, 1 cm steps only near the crossings of the aim and the range ends.
     uvi : numpy.ndarray
         The statistic at each height [-].
     achievable : bool
         Whether any scanned height gives a value inside the range.
     suggested_height_m : float
-        Middle of the widest band of good heights; if none, the height that comes
-        closest [m].
+        Lamp face above the floor: where the statistic equals the aimed-at value when one
+        was given and reachable inside the range; else the middle of the widest band of
+        good heights; if none, the scanned height that comes closest [m].
+    suggested_uvi : float
+        The statistic at the suggested height [-].
     good_bands_m : tuple of tuple of float
         (lowest, highest) good height of each band [m].
-    message : str
-        One sentence for the report.
+    top_m : float
+        Highest height allowed: the enclosure top (or the lamp's present mount if higher) [m].
+    present_height_m : float
+        The lamp face's present height above the floor [m].
+    surface_z_m : float
+        Height of the surface above the floor [m].
+    side : str
+        ``""`` when achievable; else ``"above"`` or ``"below"``: where the closest value
+        still lies against the range.
     """
 
     lamp: str
@@ -57,8 +83,12 @@ class HeightAnswer:
     uvi: np.ndarray
     achievable: bool
     suggested_height_m: float
+    suggested_uvi: float
     good_bands_m: tuple
-    message: str
+    top_m: float
+    present_height_m: float
+    surface_z_m: float
+    side: str
 
 
 def _question_range(statistic: str, uvi_range) -> tuple[float, float]:
@@ -77,6 +107,46 @@ def _question_range(statistic: str, uvi_range) -> tuple[float, float]:
     return lo, hi
 
 
+def _lamp_index(enclosure: Enclosure, lamp: str) -> int:
+    index = [i for i, p in enumerate(enclosure.lamps) if p.id == lamp]
+    if not index:
+        raise InputError(
+            f"no lamp {lamp!r} in enclosure {enclosure.name!r}",
+            field="lamp",
+            hint="lamps: " + ", ".join(p.id for p in enclosure.lamps),
+        )
+    return index[0]
+
+
+def _failed_of(failed, lamp_id: str) -> tuple:
+    return tuple(f for f in failed if f == lamp_id or f.startswith(f"{lamp_id}/"))
+
+
+def _aimed_height(heights, values, aim, bands):
+    """Height where the statistic crosses ``aim`` (linear between scanned heights) [m].
+
+    The crossing inside the widest good band is preferred; None when the scan never
+    crosses ``aim``.
+    """
+    diff = values - aim
+    crossings = []
+    for j in range(len(heights) - 1):
+        a, b = diff[j], diff[j + 1]
+        if a == 0:
+            crossings.append(float(heights[j]))
+        elif a * b < 0:
+            crossings.append(float(heights[j] + (heights[j + 1] - heights[j]) * a / (a - b)))
+    if len(heights) and diff[-1] == 0:
+        crossings.append(float(heights[-1]))
+    if not crossings:
+        return None
+    if bands:
+        low, high = max(bands, key=lambda b: b[1] - b[0])
+        inside = [h for h in crossings if low - HEIGHT_STEP_M <= h <= high + HEIGHT_STEP_M]
+        crossings = inside or crossings
+    return crossings[0]
+
+
 def height_for_target(
     enclosure: Enclosure,
     lamp: str,
@@ -85,8 +155,12 @@ def height_for_target(
     statistic: str = "max",
     heights_m=None,
     spacing_m: float = 0.02,
+    *,
+    aim_uvi: float | None = None,
+    failed=(),
+    scale: float = 1.0,
 ) -> HeightAnswer:
-    """Mount height of one lamp that brings a surface's UVI into a range.
+    """Mount height of one lamp that brings a surface's UVI into a range, within the enclosure.
 
     Parameters
     ----------
@@ -101,61 +175,89 @@ def height_for_target(
     statistic : str, optional
         ``"max"`` (default) or ``"mean"`` of the surface UVI.
     heights_m : array_like, optional
-        Heights to scan [m]; default 1 cm steps from 5 cm above the surface to the
-        enclosure height (mounting above a mesh top is given explicitly).
+        Heights to scan (lamp face above the floor) [m]; heights above the enclosure top
+        are left out. Default: 1 cm steps from 5 cm above the surface to the top.
     spacing_m : float, optional
         Grid cell size on the surface [m].
+    aim_uvi : float, optional
+        Value inside the range to aim at (e.g. the range's middle) [-].
+    failed : collection of str, optional
+        Failure labels that are out (see :func:`audit_lib.scene.maps.evaluate_points`).
+    scale : float, optional
+        Factor on every modelled value: calibration to readings or a planned output share
+        (all quantities are linear in lamp output) [-].
 
     Returns
     -------
     HeightAnswer
     """
     lo, hi = _question_range(statistic, uvi_range)
-    index = [i for i, p in enumerate(enclosure.lamps) if p.id == lamp]
-    if not index:
-        raise InputError(
-            f"no lamp {lamp!r} in enclosure {enclosure.name!r}",
-            field="lamp",
-            hint="lamps: " + ", ".join(p.id for p in enclosure.lamps),
-        )
+    index = _lamp_index(enclosure, lamp)
+    placed = enclosure.lamps[index]
     s = enclosure.surface(surface)
+    top = max(float(enclosure.height_m), float(placed.z_m))
     if heights_m is None:
-        heights_m = np.arange(s.z_m + 0.05, enclosure.height_m + 1e-9, 0.01)
+        heights_m = np.arange(s.z_m + LOWEST_CLEARANCE_M, top, HEIGHT_STEP_M)
+        heights_m = np.append(heights_m[heights_m < top - 1e-6], top)
     heights = np.sort(np.asarray(heights_m, float).ravel())
+    heights = np.minimum(heights[heights <= top + 1e-9], top)
     if heights.size == 0:
-        raise InputError("no heights to scan", field="heights_m")
+        raise InputError(f"no heights to scan at or below the top ({top:.2f} m)",
+                         field="heights_m", hint="give heights between the surface and the top")
     _, _, pts = surface_grid(s, spacing_m)
     reduce = np.max if statistic == "max" else np.mean
-    values = np.empty(heights.size)
-    lamps = list(enclosure.lamps)
-    for j, h in enumerate(heights):
-        lamps[index[0]] = replace(enclosure.lamps[index[0]], z_m=float(h))
-        moved = replace(enclosure, lamps=tuple(lamps))
-        values[j] = reduce(evaluate_points(moved, pts, ("uvi",)).values["uvi"])
+    others = tuple(p for i, p in enumerate(enclosure.lamps) if i != index)
+    base = np.zeros(len(pts))
+    if others:
+        base = evaluate_points(replace(enclosure, lamps=others), pts, ("uvi",),
+                               failed=failed).values["uvi"]
+    own_failed = _failed_of(failed, lamp)
+
+    def statistic_at(hs):
+        if not enclosure.screens:
+            # no screen planes: raising the lamp by d is lowering every point by d (the
+            # geometry is relative), so all heights go in one call
+            alone = replace(enclosure, lamps=(placed,))
+            shifted = np.concatenate([pts - np.array([0.0, 0.0, h - placed.z_m]) for h in hs])
+            own = evaluate_points(alone, shifted, ("uvi",), failed=own_failed).values["uvi"]
+            return scale * reduce(base + own.reshape(len(hs), -1), axis=1)
+        out = np.empty(len(hs))
+        for j, h in enumerate(hs):
+            moved = replace(enclosure, lamps=(replace(placed, z_m=float(h)),))
+            own = evaluate_points(moved, pts, ("uvi",), failed=own_failed).values["uvi"]
+            out[j] = scale * reduce(base + own)
+        return out
+
+    if aim_uvi is not None and heights.size > 2 * COARSE_EVERY:
+        # coarse pass (every COARSE_EVERY-th height and the top), then every height inside
+        # the coarse steps where the statistic crosses the aim or the range's ends
+        coarse = np.unique(np.r_[np.arange(0, heights.size, COARSE_EVERY), heights.size - 1])
+        known = dict(zip(coarse.tolist(), statistic_at(heights[coarse]), strict=True))
+        wanted = set()
+        for a, b in zip(coarse[:-1], coarse[1:], strict=True):
+            va, vb = known[int(a)], known[int(b)]
+            if any((va - t) * (vb - t) <= 0 for t in (float(aim_uvi), lo, hi)):
+                wanted.update(range(int(a) + 1, int(b)))
+        fine = np.array(sorted(wanted - set(known)), dtype=int)
+        if fine.size:
+            known.update(zip(fine.tolist(), statistic_at(heights[fine]), strict=True))
+        keep = np.array(sorted(known), dtype=int)
+        heights, values = heights[keep], np.array([known[int(k)] for k in keep])
+    else:
+        values = statistic_at(heights)
     good = (values >= lo) & (values <= hi)
     bands = _bands(heights, good)
-    what = f"{statistic} UVI on {surface!r}"
-    if bands:
+    best = None
+    if aim_uvi is not None and bands:
+        best = _aimed_height(heights, values, float(aim_uvi), bands)
+    if best is None and bands:
         low, high = max(bands, key=lambda b: b[1] - b[0])
         best = 0.5 * (low + high)
-        message = (
-            f"Lamp {lamp!r} at {low:.2f}-{high:.2f} m above the floor gives a {what} within "
-            f"{lo:g}-{hi:g}; suggested {best:.2f} m."
-        )
-    else:
+    side = ""
+    if best is None:
         j = int(np.argmin(np.where(values < lo, lo - values, values - hi)))
         best = float(heights[j])
         side = "above" if values[j] > hi else "below"
-        message = (
-            f"No height from {heights.min():.2f} to {heights.max():.2f} m brings the {what} "
-            f"into {lo:g}-{hi:g}; the closest is {values[j]:.2f} at {best:.2f} m, still {side} "
-            f"the range: "
-            + (
-                "use a weaker lamp, fewer emitters or a screen."
-                if side == "above"
-                else "use a stronger lamp or more emitters."
-            )
-        )
     return HeightAnswer(
         lamp,
         surface,
@@ -165,8 +267,12 @@ def height_for_target(
         values,
         bool(bands),
         float(best),
+        float(np.interp(best, heights, values)),
         tuple(bands),
-        message,
+        top,
+        float(placed.z_m),
+        float(s.z_m),
+        side,
     )
 
 
@@ -204,8 +310,11 @@ class CountAnswer:
         Whether any count gives a value inside the range.
     suggested_count : int
         Smallest good count; if none, the count that comes closest.
-    message : str
-        One sentence for the report.
+    present_count : int
+        Emitters of that type in the lamp now.
+    side : str
+        ``""`` when achievable; else ``"above"`` or ``"below"``: where the closest value
+        still lies against the range.
     """
 
     lamp: str
@@ -217,7 +326,8 @@ class CountAnswer:
     uvi: np.ndarray
     achievable: bool
     suggested_count: int
-    message: str
+    present_count: int
+    side: str
 
 
 def emitter_count_for_target(
@@ -295,21 +405,13 @@ def emitter_count_for_target(
         scene = replace(enclosure, lamps=tuple(lamps))
         values[j] = reduce(evaluate_points(scene, pts, ("uvi",)).values["uvi"])
     good = (values >= lo) & (values <= hi)
-    what = f"{statistic} UVI on {surface!r}"
+    side = ""
     if good.any():
         best = int(counts[np.argmax(good)])
-        message = (
-            f"{best} emitter(s) of type {emitter_type!r} in lamp {lamp!r} give a {what} "
-            f"within {lo:g}-{hi:g} (now {len(mine)})."
-        )
     else:
         j = int(np.argmin(np.where(values < lo, lo - values, values - hi)))
         best = int(counts[j])
-        message = (
-            f"No count from 1 to {counts[-1]} emitters of type {emitter_type!r} brings the "
-            f"{what} into {lo:g}-{hi:g}; closest {values[j]:.2f} with {best}: change the "
-            "mounting height or the emitter type."
-        )
+        side = "above" if values[j] > hi else "below"
     return CountAnswer(
         lamp,
         emitter_type,
@@ -320,5 +422,6 @@ def emitter_count_for_target(
         values,
         bool(good.any()),
         best,
-        message,
+        len(mine),
+        side,
     )
