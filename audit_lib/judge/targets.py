@@ -30,7 +30,13 @@ from audit_lib.judge.zones import (  # noqa: F401 - the tables, re-exported for 
 from audit_lib.light.sun import day_length_h
 
 WITHIN, BELOW, ABOVE, NO_DATA = "within range", "below range", "above range", "not enough data"
-STATES = (WITHIN, BELOW, ABOVE, NO_DATA)
+#: The figure's uncertainty interval crosses a limit: neither inside nor outside for sure.
+BORDERLINE = "borderline"
+STATES = (WITHIN, BELOW, ABOVE, BORDERLINE, NO_DATA)
+
+#: What a check's target rests on (``Check.basis``).
+PUBLISHED, PROJECT_DEFAULT, FROM_MEMORY = "published", "project default", "from memory"
+BASES = (PUBLISHED, PROJECT_DEFAULT, FROM_MEMORY)
 
 #: Defaults that rest on common practice, not on a published limit; sites may change them.
 REFUGE_UVI_MAX = 0.5  # a place counts as low-UV refuge at or below this UV Index [-]
@@ -76,6 +82,11 @@ class Check:
         How far the target values are checked ("from memory", "common practice", ...).
     id : str
         Stable id, one of :data:`CHECK_IDS` (what code and results files match on).
+    basis : str
+        What the target rests on, one of :data:`BASES` (empty until set).
+    value_low, value_high : float or None
+        The figure's 90 % uncertainty interval, containing ``value`` (None: not estimated)
+        [``unit``].
     """
 
     name: str
@@ -88,6 +99,9 @@ class Check:
     reason: str
     status: str = ""
     id: str = ""
+    basis: str = ""
+    value_low: float | None = None
+    value_high: float | None = None
 
 
 # --- checks -------------------------------------------------------------------------------
