@@ -309,7 +309,10 @@ def _hours_to_date(installed_on, daily_hours: float, hours: float) -> pd.Timesta
     if not math.isfinite(hours) or daily_hours <= 0:
         return pd.NaT
     days = math.ceil(hours / daily_hours)
-    return pd.Timestamp(installed_on).normalize() + pd.Timedelta(days=days)
+    start = pd.Timestamp(installed_on).normalize()
+    if days > (pd.Timestamp.max - start).days:  # no crossing before the calendar ends
+        return pd.NaT
+    return start + pd.Timedelta(days=days)
 
 
 def forecast_crossing(fit: DecayFit, threshold: float, *, installed_on, daily_hours: float,

@@ -315,10 +315,12 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
                                                     emitter_failure_probability)
     if monte_carlo is not None:
         found.notes.append(
-            f"Emitter failures: with each emitter out with an assumed probability of "
+            f"Emitter failures: with every emitter working, "
+            f"{monte_carlo.baseline_coverage:.0%} of {found.basking_surface!r} is inside the "
+            f"maximum UV Index range; with each emitter out with an assumed probability of "
             f"{emitter_failure_probability:.0%}, {monte_carlo.probability_below:.0%} of 2000 "
-            f"random trials leave less than {monte_carlo.coverage_threshold:.0%} of "
-            f"{found.basking_surface!r} inside the maximum UV Index range.")
+            f"random trials leave less than {monte_carlo.coverage_threshold:.0%} of it in "
+            f"range (median {float(np.median(monte_carlo.coverage)):.0%}).")
 
     return EnclosureAudit(
         site_name=site.name, enclosure_id=enclosure_id, enclosure_name=record.name,

@@ -17,41 +17,17 @@ import pandas as pd
 
 from audit_lib.judge.targets import KEEPER_EXPOSURE_TIME
 from audit_lib.judge.verdicts import unanswered_sentence
+from audit_lib.report import formats as fmt
 from audit_lib.report.cautions import CAUTIONS
+from audit_lib.report.formats import HTMLBlock
 from audit_lib.report.index_page import state_class
 
 #: MIME type of the report data (see :mod:`audit_lib.run.notebooks`).
 REPORT_DATA_MIMETYPE = "application/vnd.audit-lib.report+json"
 
 
-class HTMLBlock(str):
-    """A string of finished HTML that a notebook shows as HTML."""
-
-    def _repr_html_(self) -> str:
-        return str(self)
-
-
 def _badge(state: str) -> str:
     return f'<span class="state {state_class(state)}">{escape(state)}</span>'
-
-
-def _num(value, digits: int | None = None) -> str:
-    """A figure for a table: "–" when missing, "no limit" when infinite, else rounded."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return "–"
-    value = float(value)
-    if math.isinf(value):
-        return "no limit"
-    if digits is not None:
-        return f"{value:.{digits}f}"
-    size = abs(value)
-    if size >= 100:
-        return f"{value:.0f}"
-    if size >= 10:
-        return f"{value:.1f}"
-    if size >= 0.1 or size == 0:
-        return f"{value:.2f}"
-    return f"{value:.2g}"
 
 
 def _finite(value):
@@ -166,17 +142,19 @@ def summary(audit) -> HTMLBlock:
 
 
 def checks_table(audit) -> HTMLBlock:
-    """Every check: figure, target range, state (word and colour) and reason."""
+    """Every check: figure, target range and unit as shown, state (word and colour), reason."""
     rows = []
-    for c in audit.checks:
-        target = f"{_num(c.target_low)} – {_num(c.target_high)}"
-        rows.append(f"<tr><td>{escape(c.name)}</td><td class='num'>{_num(c.value)}</td>"
-                    f"<td>{escape(c.unit)}</td><td class='num'>{target}</td>"
-                    f"<td>{_badge(c.state)}</td><td>{escape(c.reason)}</td></tr>")
+    for c in check_entries(audit):
+        rows.append(f"<tr><th scope='row'>{escape(c['name'])}</th>"
+                    f"<td class='num'>{fmt.check_text(c)}</td>"
+                    f"<td class='num'>{escape(fmt.check_range_text(c))}</td>"
+                    f"<td>{escape(fmt.check_unit(c))}</td>"
+                    f"<td>{_badge(c['state'])}</td><td>{escape(c['reason'])}</td></tr>")
     return HTMLBlock(
-        '<table class="checks"><thead><tr><th>Check</th><th class="num">Figure</th>'
-        '<th>Unit</th><th class="num">Target</th><th>State</th><th>Reason</th></tr></thead>'
-        f"<tbody>{''.join(rows)}</tbody></table>")
+        '<div class="table-wrap"><table class="checks"><thead><tr><th scope="col">Check</th>'
+        '<th scope="col" class="num">Figure</th><th scope="col" class="num">Target</th>'
+        '<th scope="col">Unit</th><th scope="col">State</th><th scope="col">Reason</th>'
+        f"</tr></thead><tbody>{''.join(rows)}</tbody></table></div>")
 
 
 def actions_list(audit) -> HTMLBlock:
@@ -189,22 +167,6 @@ def actions_list(audit) -> HTMLBlock:
     if items:
         return HTMLBlock(f'<ul class="actions">{items}</ul>')
     return HTMLBlock(f"<p>{escape(audit.recommendation)}</p>")
-
-
-def surface_table(audit) -> pd.DataFrame:
-    """Per surface: UV Index statistics, shares, mean vitamin-D irradiance and illuminance."""
-    stats = audit.surface_stats
-    t = stats[stats["quantity"] == "uvi"].drop(columns="quantity")
-    t = t.assign(share_in_uvi_range_pct=100 * t.pop("share_in_uvi_range"),
-                 share_refuge_pct=100 * t.pop("share_refuge"))
-    t = t.rename(columns={"maximum": "max_uvi", "mean": "mean_uvi", "minimum": "min_uvi"})
-    for quantity, column in (("vitamin_d_w_m2", "mean_vitamin_d_w_m2"),
-                             ("illuminance_lux", "mean_illuminance_lux")):
-        means = stats[stats["quantity"] == quantity].set_index("surface")["mean"]
-        t[column] = t["surface"].map(means)
-    return t.round({"max_uvi": 2, "mean_uvi": 2, "min_uvi": 2, "uniformity": 2, "area_m2": 3,
-                    "share_in_uvi_range_pct": 0, "share_refuge_pct": 0,
-                    "mean_vitamin_d_w_m2": 4, "mean_illuminance_lux": 0}).set_index("surface")
 
 
 def points_table(audit) -> pd.DataFrame:
@@ -223,88 +185,25 @@ def points_table(audit) -> pd.DataFrame:
     return p[[c for c in cols if c in p.columns]].round(2).set_index("position")
 
 
-def monthly_table(audit) -> pd.DataFrame:
-    """Month by month at the basking maximum: light hours, doses, UV Index, the sun's dose."""
-    if audit.monthly is None:
-        return pd.DataFrame({"note": ["no lamp schedules"]})
-    keep = ["lit_hours", "sed", "vitamin_d_j_m2", "hours_in_range", "peak_uvi",
-            "mean_uvi_exposed", "sun_clear_sky_sed"]
-    return audit.monthly[[c for c in keep if c in audit.monthly.columns]].round(2)
-
-
-def dose_table(audit) -> pd.DataFrame:
-    """Daily doses at the basking maximum and for the animal's time budget."""
-    rows = {}
-    for label, dose in (("basking maximum", audit.basking_dose), ("animal (time budget)",
-                                                                   audit.animal_dose)):
-        if dose is not None:
-            rows[label] = {"erythemal_j_m2": float(dose.erythemal_j_m2), "sed": float(dose.sed),
-                           "vitamin_d_j_m2": float(dose.vitamin_d_j_m2),
-                           "hours_in_range": float(dose.hours_in_range),
-                           "peak_uvi": float(dose.peak_uvi),
-                           "mean_uvi_exposed": float(dose.mean_uvi_exposed)}
-    place = audit.natural.get("place", "the site")
-    rows[f"clear-sky sun at {place}"] = {"sed": audit.natural.get("daily_sed", math.nan),
-                                         "peak_uvi": audit.natural.get("peak_uvi", math.nan)}
-    return pd.DataFrame(rows).T.round(2)
-
-
-def spectrum_table(audit) -> pd.DataFrame:
-    """Per lamp model: peak, width, short-wave UVB share and vitamin-D/erythema ratio vs sun."""
-    keys = ["peak_nm", "fwhm_nm", "short_uvb_fraction", "vitd_to_erythemal_ratio",
-            "sun_vitd_to_erythemal_ratio", "cct_k", "risk_group"]
-    rows = {m: {k: v.get(k) for k in keys} for m, v in audit.spectra.items()}
-    if not rows:
-        return pd.DataFrame({"note": ["no lamp spectra"]})
-    table = pd.DataFrame(rows).T
-    for k in keys[:-1]:
-        table[k] = pd.to_numeric(table[k], errors="coerce")
-    return table.round({"peak_nm": 1, "fwhm_nm": 1, "short_uvb_fraction": 4,
-                        "vitd_to_erythemal_ratio": 2, "sun_vitd_to_erythemal_ratio": 2,
-                        "cct_k": 0})
-
-
-def lamps_table(audit) -> pd.DataFrame:
-    """Lamp ages, decay and replacement forecast per lamp."""
-    t = audit.lamps
-    if t is None or not len(t):
-        return pd.DataFrame({"note": ["no lamps"]})
-    keep = ["lamp", "lamp_model", "installed_on", "age_days", "hours_now", "points", "model",
-            "loss_per_1000h_pct", "last_value", "target_min", "replace_by", "state",
-            "meter_corrected"]
-    out = t[[c for c in keep if c in t.columns]].copy()
-    numeric = out.select_dtypes("number").columns
-    out[numeric] = out[numeric].round(2)
-    for c in ("installed_on", "replace_by"):
-        if c in out:
-            out[c] = pd.to_datetime(out[c]).dt.date
-    return out.set_index("lamp")
-
-
-def failures_table(audit) -> pd.DataFrame:
-    """LED emitter failure scenarios on the basking surface."""
-    if audit.failures is None or not len(audit.failures):
-        return pd.DataFrame({"note": ["no LED arrays: emitter failures do not apply"]})
-    t = audit.failures.copy()
-    t["share_in_range_pct"] = 100 * t.pop("share_in_range")
-    return t.round(2).set_index("scenario")
-
-
 def safety_table(audit) -> HTMLBlock:
     """Keeper-safety figures: the keeper check, and each lamp model's indicative risk group."""
     rows = []
     for c in audit.checks:
         if c.id == KEEPER_EXPOSURE_TIME:
-            rows.append((c.name, f"{_num(c.value, 0)} {c.unit}", _badge(c.state), c.reason))
+            rows.append((c.name, fmt.text(c.value, "minutes", unit=True), _badge(c.state),
+                         c.reason))
     for model, m in audit.spectra.items():
-        distance_mm = 1000 * (m.get("risk_group_distance_m") or math.nan)
-        rows.append((f"lamp model {model}", f"{m.get('risk_group', '')} at {distance_mm:.0f} mm",
+        distance = m.get("risk_group_distance_m")
+        where = f" at {fmt.text(distance * 1000, 'count')} mm" if distance else ""
+        rows.append((f"lamp model {model}", f"{m.get('risk_group') or fmt.MISSING}{where}",
                      "", "IEC 62471 risk group (indicative, limits from memory) of the lamp "
                      "model on its axis at 200 mm, or at 500 lx for general lighting lamps; "
                      "a certificate needs a laboratory measurement."))
     if not rows:
         return HTMLBlock("<p>No lamps.</p>")
-    body = "".join(f"<tr><td>{escape(a)}</td><td>{escape(b)}</td><td>{c}</td>"
+    body = "".join(f"<tr><th scope='row'>{escape(a)}</th><td>{escape(b)}</td><td>{c}</td>"
                    f"<td>{escape(d)}</td></tr>" for a, b, c, d in rows)
-    return HTMLBlock('<table class="checks"><thead><tr><th>What</th><th>Figure</th>'
-                     f"<th>State</th><th>Reason</th></tr></thead><tbody>{body}</tbody></table>")
+    return HTMLBlock('<div class="table-wrap"><table class="checks"><thead><tr>'
+                     '<th scope="col">What</th><th scope="col">Figure</th>'
+                     '<th scope="col">State</th><th scope="col">Reason</th></tr></thead>'
+                     f"<tbody>{body}</tbody></table></div>")

@@ -12,6 +12,8 @@ import re
 from html import escape
 from importlib.resources import files
 
+from audit_lib.judge.targets import BASKING_UVI_MAX
+from audit_lib.report import formats as fmt
 from audit_lib.report.cautions import CAUTIONS
 
 #: The report template's style sheet (package data ``audit_lib.templates``).
@@ -35,7 +37,23 @@ def _link(href: str | None, text: str) -> str:
     return f'<a href="{escape(href, quote=True)}">{escape(text)}</a>'
 
 
-def _row(outcome) -> str:
+def _basking(outcome) -> str:
+    check = next((c for c in outcome.checks if c.get("check_id") == BASKING_UVI_MAX), None)
+    if check is None:
+        return fmt.MISSING
+    return (f"{fmt.check_text(check)} "
+            f'<span class="small">({escape(fmt.check_range_text(check))})</span>')
+
+
+def _next_replacement(outcome) -> str:
+    dates = sorted(lamp["replace_by"] for lamp in outcome.results.get("lamps", [])
+                   if lamp.get("replace_by"))
+    return fmt.date_text(dates[0]) if dates else "none forecast"
+
+
+def _row(outcome, pdfs) -> str:
+    results = getattr(outcome, "results", None) or {}
+    date = zone = basking = replacement = actions = fmt.MISSING
     if outcome.error:
         verdict = _badge("could not be audited")
         notes = f'<span class="error">{escape(outcome.error)}</span>'
@@ -45,17 +63,29 @@ def _row(outcome) -> str:
     else:
         verdict = _badge(outcome.verdict)
         off = [c for c in outcome.checks if c.get("state") not in (None, "within range")]
-        notes = " ".join(escape(str(c.get("reason", ""))) for c in off[:4])
-        if len(off) > 4:
-            notes += f"; and {len(off) - 4} more"
+        notes = " ".join(escape(str(c.get("reason", ""))) for c in off[:3])
+        if len(off) > 3:
+            notes += f" And {len(off) - 3} more."
+        date = fmt.date_text(results.get("audit_date"))
+        zone = fmt.text(results.get("zone"), "count")
+        basking = _basking(outcome)
+        replacement = _next_replacement(outcome)
+        actions = str(len(results.get("actions", [])))
+    pdf = outcome.report[:-len(".html")] + ".pdf" if outcome.report else None
     links = " · ".join(filter(None, (_link(outcome.report, "report"),
-                                     _link(outcome.notebook, "notebook"))))
-    return (f"<tr><td>{escape(outcome.id)}</td><td>{escape(outcome.name)}</td>"
-            f"<td>{verdict}</td><td>{notes}</td><td>{links}</td></tr>")
+                                     _link(pdf if pdf in pdfs else None, "PDF"),
+                                     _link(outcome.notebook, "workbook"))))
+    notes = f'<div class="small">{notes}</div>' if notes else ""
+    return (f'<tr><th scope="row">{escape(outcome.id)}<div class="small">'
+            f"{escape(outcome.name)}</div></th><td class='num'>{date}</td>"
+            f"<td class='num'>{zone}</td><td>{verdict}{notes}</td>"
+            f"<td class='num'>{basking}</td><td class='num'>{replacement}</td>"
+            f"<td class='num'>{actions}</td><td>{links}</td></tr>")
 
 
 def render_index(site_name: str, outcomes, *, facts=(), overview=None,
-                 generated: dt.datetime | None = None, library_version: str = "") -> str:
+                 generated: dt.datetime | None = None, library_version: str = "",
+                 logo_data_uri: str = "", pdfs=()) -> str:
     """Return the index page of a batch run as one HTML document.
 
     Parameters
@@ -73,12 +103,22 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
         When the run ended (default now, UTC).
     library_version : str
         Shown in the provenance block.
+    logo_data_uri : str
+        The site's logo as a ``data:`` URI ("" for none).
+    pdfs : collection of str
+        PDF files that exist, relative to the index: each is linked beside its report.
     """
     generated = generated or dt.datetime.now(dt.timezone.utc)
     failed = [o for o in outcomes if o.error]
     if overview is not None and overview.error:
         failed.append(overview)
     done = [o for o in outcomes if o.verdict is not None and not o.error]
+    dates = sorted({(getattr(o, "results", None) or {}).get("audit_date") for o in done} - {None})
+    if dates:
+        facts = [*facts, ("Audit dates" if len(dates) > 1 else "Audit date", ", ".join(dates))]
+    pdfs = set(pdfs)
+    logo = (f'<img class="report-logo" src="{escape(logo_data_uri, quote=True)}" alt="logo">'
+            if logo_data_uri else "")
     facts_html = "".join(f"<div><dt>{escape(str(k))}</dt><dd>{escape(str(v))}</dd></div>"
                          for k, v in facts)
     parts = [
@@ -88,7 +128,7 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
         f"<title>Lighting audit: {escape(site_name)}</title>",
         f"<style>\n{_CSS.read_text(encoding='utf-8')}\n</style></head>",
         '<body class="audit-report">',
-        '<header class="report-header"><div class="report-heading">',
+        f'<header class="report-header">{logo}<div class="report-heading">',
         '<p class="report-kind">Lighting audit: site index</p>',
         f'<h1 class="report-title">{escape(site_name)}</h1>',
         f'<dl class="report-facts">{facts_html}</dl></div></header>',
@@ -99,13 +139,21 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
         f"<div><strong>{len(failed)}</strong> could not be audited</div></div>",
     ]
     if overview is not None and overview.report:
-        parts.append(f"<p>{_link(overview.report, 'Site overview report')}</p>")
+        pdf = overview.report[:-len(".html")] + ".pdf"
+        extra = f" ({_link(pdf, 'PDF')})" if pdf in pdfs else ""
+        parts.append(f'<p class="overview-link">{_link(overview.report, "Site overview")}'
+                     f"{extra}: every enclosure's verdict, basking maximum and lamps.</p>")
     parts += [
         "<h2>Enclosures</h2>",
-        '<table id="verdicts"><thead><tr><th>Id</th><th>Name</th><th>Verdict</th>'
-        "<th>Checks outside range, or error</th><th>Files</th></tr></thead><tbody>",
-        *(_row(o) for o in outcomes),
-        "</tbody></table>",
+        '<div class="table-wrap"><table id="verdicts" class="data"><thead><tr>'
+        '<th scope="col">Enclosure</th><th scope="col" class="num">Audit date</th>'
+        '<th scope="col" class="num">Zone</th><th scope="col">Verdict and checks outside '
+        'range</th><th scope="col" class="num">Basking maximum [UVI] (target)</th>'
+        '<th scope="col" class="num">Next replacement</th>'
+        '<th scope="col" class="num">Actions</th><th scope="col">Files</th></tr></thead>'
+        "<tbody>",
+        *(_row(o, pdfs) for o in outcomes),
+        "</tbody></table></div>",
     ]
     if failed:
         items = "".join(f"<li><strong>{escape(o.id)}</strong>: {escape(o.error)}</li>"

@@ -13,6 +13,7 @@ import datetime as dt
 import json
 import math
 from dataclasses import dataclass, field
+from html import escape
 from pathlib import Path
 
 import numpy as np
@@ -27,8 +28,10 @@ from audit_lib.judge.targets import (
     REFUGE_FLOOR_SHARE,
 )
 from audit_lib.pipeline.audit import DEFAULT_SPACING_M, audit_enclosure, choose_audit_date
+from audit_lib.report import formats as fmt
 from audit_lib.report.cautions import CAUTIONS
-from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE, enclosure_results
+from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE, _badge, enclosure_results
+from audit_lib.report.formats import Column, HTMLBlock, header, html_table
 from audit_lib.report.style import PALETTE, STATE_COLOURS, new_figure
 
 COULD_NOT_AUDIT = "could not be audited"
@@ -189,9 +192,68 @@ def replacement_table(overview: SiteOverview) -> pd.DataFrame:
     return t.round(2).set_index(["enclosure", "lamp"])
 
 
+def audit_dates(overview: SiteOverview) -> list[str]:
+    """The distinct audit dates of the enclosures shown, oldest first (ISO)."""
+    return sorted({e.get("audit_date") for e in overview.enclosures} - {None})
+
+
+def _check_cell(entry: dict, check_id: str, *, with_range: bool = False) -> str:
+    check = find_check(entry, check_id)
+    if check is None:
+        return fmt.MISSING
+    figure = fmt.check_text(check)
+    if with_range:
+        figure += (f' <span class="small">({fmt.check_range_text(check)})</span>'
+                   if check.get("target_low") is not None else "")
+    return figure
+
+
+def verdicts_html(overview: SiteOverview) -> HTMLBlock:
+    """The verdict table as the report shows it: words and units, each report's figures."""
+    mixed = len(audit_dates(overview)) > 1
+    rows = [{"enclosure": f"{e['id']} – {e['name']}", "date": e.get("audit_date"),
+             "zone": e.get("zone"), "verdict": _badge(e["verdict"]),
+             "bask": _check_cell(e, BASKING_UVI_MAX, with_range=True),
+             "mean": _check_cell(e, ANIMAL_UVI_MEAN),
+             "refuge": _check_cell(e, REFUGE_FLOOR_SHARE),
+             "off": sum(c["state"] in (BELOW, ABOVE) for c in e["checks"])}
+            for e in overview.enclosures]
+    rows += [{"enclosure": enclosure_id, "verdict": _badge(COULD_NOT_AUDIT),
+              "bask": escape(error)} for enclosure_id, error in overview.errors.items()]
+    if not rows:
+        return fmt.note("No enclosures.")
+    columns = [Column("enclosure", "Enclosure"),
+               *([Column("date", "Audit date", "date")] if mixed else []),
+               Column("zone", "Zone", "count"), Column("verdict", "Verdict", "html"),
+               Column("bask", header("Basking maximum (target)", "uvi"), "html"),
+               Column("mean", header("Animal's mean", "uvi"), "html"),
+               Column("refuge", header("Low-UV refuge share of floor", "share_pct"), "html"),
+               Column("off", "Checks outside range", "count")]
+    return html_table(rows, columns)
+
+
+def replacements_html(overview: SiteOverview) -> HTMLBlock:
+    """Every lamp of the site, most urgent first, as :func:`replacement_table` orders them."""
+    table = replacement_table(overview)
+    if "note" in table.columns:
+        return fmt.note("No lamps.")
+    rows = [{**r, "enclosure_lamp": f"{r['enclosure']} / {r['lamp']}",
+             "replace_by": fmt.date_text(r["replace_by"]) if r["replace_by"] != "no forecast"
+             else "no forecast", "state": _badge(r["state"])}
+            for r in table.reset_index().to_dict("records")]
+    return html_table(rows, [
+        Column("enclosure_lamp", "Enclosure / lamp"), Column("lamp_model", "Lamp model"),
+        Column("age_days", header("Age", "days"), "days"),
+        Column("last_uvi", header("Latest reading", "uvi"), "uvi"),
+        Column("target_min_uvi", header("Lowest acceptable", "uvi"), "uvi"),
+        Column("replace_by", "Replace by"), Column("state", "State", "html")])
+
+
 def overview_data(overview: SiteOverview) -> dict:
     """Report data of the overview (header for the template; verdict counts as results)."""
-    facts = [("Site", overview.site_name), ("Audit date", overview.audit_date.isoformat())]
+    dates = audit_dates(overview) or [overview.audit_date.isoformat()]
+    facts = [("Site", overview.site_name),
+             ("Audit dates" if len(dates) > 1 else "Audit date", ", ".join(dates))]
     facts += [(label, value) for label, value in (
         ("Auditor", overview.auditor), ("Organisation", overview.organisation),
         ("Client", overview.client)) if value]

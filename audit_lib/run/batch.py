@@ -30,11 +30,10 @@ from concurrent.futures.process import BrokenProcessPool
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
-from audit_lib import __version__
 from audit_lib.errors import AuditError, AuditWarning, InputError
 from audit_lib.history.sync import sync_site_history
 from audit_lib.pipeline.scenarios import write_scenario_site
-from audit_lib.report.index_page import render_index
+from audit_lib.report.paths import strip_machine_paths
 from audit_lib.run.notebooks import (
     WORKBOOKS_DIR,
     WarmKernel,
@@ -43,6 +42,8 @@ from audit_lib.run.notebooks import (
     read_report_data,
     write_atomic,
 )
+from audit_lib.run.outputs import REPORTS_DIR, shown_paths, write_outputs, write_pdfs
+from audit_lib.run.pdf import find_chromium
 from audit_lib.run.results import (  # noqa: F401 - part of this module's interface
     CHECK_KEYS,
     CSV_COLUMNS,
@@ -56,7 +57,6 @@ from audit_lib.site.folder import load_site
 ENCLOSURE_WORKBOOK = WORKBOOKS_DIR / "enclosure_report.ipynb"
 OVERVIEW_WORKBOOK = WORKBOOKS_DIR / "site_overview.ipynb"
 OVERVIEW_ID = "site-overview"
-REPORTS_DIR = "reports"
 #: Code a worker's kernel runs once, while the main process validates the site: the heavy
 #: imports, one small figure, one spectrum's metrics and the site itself, so fonts, colour
 #: tables, unit tables and cached weights are loaded before the first workbook; then the
@@ -147,6 +147,7 @@ class BatchResult:
     out_dir: Path
     outcomes: list[EnclosureOutcome]
     overview: EnclosureOutcome | None = None
+    pdf_errors: dict = field(default_factory=dict)
 
     @property
     def index_path(self) -> Path:
@@ -248,32 +249,43 @@ def _run_task(task: dict) -> dict:
         data = read_report_data(nb)
         if not data or "results" not in data:
             raise AuditError("the workbook published no results (its report-data cell)")
-        html = convert_notebook(nb, _WORKER["exporter"])
+        html = strip_machine_paths(convert_notebook(nb, _WORKER["exporter"]), task["paths"])
         write_atomic(html_path, html)
-        os.replace(tmp_nb, nb_path)
+        _keep_notebook(tmp_nb, nb_path, task)
         results = data["results"]
         result.update(verdict=results.get("verdict"), checks=results.get("checks", []),
                       results={k: results[k] for k in RESULT_KEYS if k in results},
                       report=f"{REPORTS_DIR}/{html_path.name}",
-                      notebook=f"{REPORTS_DIR}/{nb_path.name}")
+                      notebook=f"{REPORTS_DIR}/{nb_path.name}" if nb_path.exists() else None)
     except PapermillExecutionError as exc:
         result["error"] = f"{exc.ename}: {_first_line(exc.evalue)} (workbook cell {exc.cell_index})"
     except Exception as exc:  # noqa: BLE001 - any failure is isolated to this enclosure
         result["error"] = f"{type(exc).__name__}: {_first_line(exc)}"
     if "error" in result:
         html_path.unlink(missing_ok=True)  # never leave an older verdict beside a failure
-        if tmp_nb.exists():
-            os.replace(tmp_nb, nb_path)
+        html_path.with_suffix(".pdf").unlink(missing_ok=True)
+        _keep_notebook(tmp_nb, nb_path, task)
         result["notebook"] = f"{REPORTS_DIR}/{nb_path.name}" if nb_path.exists() else None
+        result["error"] = strip_machine_paths(result["error"], task["paths"])
     result["seconds"] = time.perf_counter() - start
     return result
+
+
+def _keep_notebook(tmp_nb: Path, nb_path: Path, task: dict) -> None:
+    """Keep the executed workbook only when asked: it holds the auditor's own paths."""
+    if task.get("keep_notebook"):
+        if tmp_nb.exists():
+            os.replace(tmp_nb, nb_path)
+    else:
+        tmp_nb.unlink(missing_ok=True)
+        nb_path.unlink(missing_ok=True)  # an older run's workbook would not match the report
 
 
 # --- main side --------------------------------------------------------------------------------
 
 
 def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str | None,
-           workbook: Path) -> list[dict]:
+           workbook: Path, keep_notebooks: bool = False) -> list[dict]:
     tasks = []
     for enclosure_id in ids:
         params = {"site_dir": str(site_dir), "enclosure_id": enclosure_id}
@@ -281,18 +293,20 @@ def _tasks(site, site_dir: Path, out_dir: Path, ids: list[str], audit_date: str 
             params["audit_date"] = audit_date
         tasks.append({"id": enclosure_id, "name": site.enclosure(enclosure_id).name,
                       "stem": safe_stem(enclosure_id), "workbook": str(workbook),
-                      "parameters": params, "out_dir": str(out_dir)})
+                      "parameters": params, "out_dir": str(out_dir),
+                      "paths": shown_paths(site_dir, out_dir), "keep_notebook": keep_notebooks})
     return tasks
 
 
 def _overview_task(site_dir: Path, out_dir: Path, audit_date: str | None,
-                   workbook: Path) -> dict:
+                   workbook: Path, keep_notebooks: bool = False) -> dict:
     """The overview workbook on the run's ``results.json`` (written before it runs)."""
     params = {"site_dir": str(site_dir), "results_json": str(out_dir / "results.json")}
     if audit_date:
         params["audit_date"] = audit_date
     return {"id": OVERVIEW_ID, "name": "Site overview", "stem": OVERVIEW_ID,
-            "workbook": str(workbook), "parameters": params, "out_dir": str(out_dir)}
+            "workbook": str(workbook), "parameters": params, "out_dir": str(out_dir),
+            "paths": shown_paths(site_dir, out_dir), "keep_notebook": keep_notebooks}
 
 
 def _select(site, only) -> list[str]:
@@ -320,6 +334,8 @@ def _previous(out_dir: Path, site_name: str) -> dict[str, EnclosureOutcome]:
         report = item.get("report")
         if item.get("verdict") and report and (out_dir / report).is_file():
             known = {k: item.get(k) for k in ("id", "name", "verdict", "report", "notebook")}
+            if known["notebook"] and not (out_dir / known["notebook"]).is_file():
+                known["notebook"] = None
             kept[item["id"]] = EnclosureOutcome(**known, checks=item.get("checks", []),
                                                 results={k: item[k] for k in RESULT_KEYS
                                                          if k in item})
@@ -385,7 +401,8 @@ def _order(tasks: list[dict], site) -> list[dict]:
 
 def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
               audit_date=None, overview: bool = True, progress: bool = True,
-              workbook=None, overview_workbook=None, sync_history: bool = True) -> BatchResult:
+              workbook=None, overview_workbook=None, sync_history: bool = True,
+              pdf: bool = False, keep_notebooks: bool = False) -> BatchResult:
     """Audit every enclosure of a site and write the reports, index and results files.
 
     Parameters
@@ -413,14 +430,22 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         First bring ``SITE/history.sqlite`` up to date with the readings folder
         (:func:`audit_lib.history.sync.sync_site_history`); a folder that cannot be
         written gives a warning, not a failure.
+    pdf : bool
+        Also print every report, the overview and the index to PDF beside its HTML
+        (:mod:`audit_lib.run.pdf`, the system's Chromium; checked before any work).
+    keep_notebooks : bool
+        Keep the executed workbooks (``reports/<id>.ipynb``) and link them from the index;
+        they hold the auditor's folder paths, so by default they are removed.
 
     Raises
     ------
     InputErrors
         The site folder is invalid (every problem listed).
     InputError
-        An id in ``only`` is not in the site, or ``audit_date`` is not a date.
+        An id in ``only`` is not in the site, ``audit_date`` is not a date, or ``pdf`` is
+        asked for and Chromium is not installed.
     """
+    chromium = find_chromium() if pdf else None  # before any work
     audit_date = parse_date(audit_date, field="audit_date").isoformat() if audit_date else None
     site_dir = Path(site_dir).resolve()
     out_dir = Path(out_dir).resolve()
@@ -443,7 +468,7 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         previous = _previous(out_dir, site.name)
         workbook = Path(workbook or ENCLOSURE_WORKBOOK).resolve()
         overview_workbook = Path(overview_workbook or OVERVIEW_WORKBOOK).resolve()
-        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook)
+        tasks = _tasks(site, site_dir, out_dir, ids, audit_date, workbook, keep_notebooks)
         run_overview = overview and overview_workbook.exists()
     except BaseException:
         # bad input: report it now; the workers finish starting, then stop with their kernels
@@ -462,30 +487,16 @@ def run_batch(site_dir, out_dir, *, jobs: int | None = None, only=None,
         result = BatchResult(site_name=site.name, out_dir=out_dir, outcomes=outcomes)
         write_outputs(result, site)
         if run_overview:  # reads the results.json just written: the reports' own figures
-            task = _overview_task(site_dir, out_dir, audit_date, overview_workbook)
+            task = _overview_task(site_dir, out_dir, audit_date, overview_workbook,
+                                  keep_notebooks)
             for done in _execute(pool, [task], progress):
                 result.overview = outcome(done)
                 write_outputs(result, site)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
+    if chromium:
+        write_pdfs(result, site, chromium)
     return result
-
-
-def write_outputs(result: BatchResult, site=None) -> None:
-    """Write ``results.json``, ``results.csv`` and ``index.html`` (each atomically)."""
-    doc = results_document(result)
-    write_atomic(result.out_dir / "results.json", json.dumps(doc, indent=2, allow_nan=False))
-    write_atomic(result.out_dir / "results.csv", results_csv(doc))
-    facts = []
-    if site is not None:
-        info = site.records.site
-        facts = [(label, value) for label, value in (
-            ("Organisation", info.organisation), ("Client", info.client),
-            ("Auditor", info.auditor),
-            ("Audit dates", ", ".join(d.isoformat() for d in info.audit_dates))) if value]
-    html = render_index(result.site_name, result.outcomes, facts=facts,
-                        overview=result.overview, library_version=__version__)
-    write_atomic(result.index_path, html)
 
 
 def outcome_dict(outcome: EnclosureOutcome) -> dict:

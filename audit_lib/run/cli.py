@@ -27,6 +27,7 @@ from audit_lib.pipeline.forecast import (
     site_replacement_schedule,
 )
 from audit_lib.run.batch import run_batch, run_scenario
+from audit_lib.run.pdf import find_chromium
 from audit_lib.run.notebooks import jupyterlab_command, register_kernel, write_what_if_workbook
 from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site, new_site, summarise_site
@@ -149,22 +150,33 @@ def _add_run_parser(subparsers) -> None:
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--scenario", metavar="NAME",
                    help="report a saved what-if scenario (SITE/scenarios/NAME.toml) instead")
+    p.add_argument("--pdf", action="store_true",
+                   help="also write a PDF beside each report, the overview and the index "
+                        "(needs the system's 'chromium')")
+    p.add_argument("--keep-notebooks", action="store_true",
+                   help="keep the executed workbooks (reports/<id>.ipynb) and link them from "
+                        "the index; they hold this machine's folder paths")
     p.set_defaults(handler=_run_run)
 
 
 def _run_run(args) -> int:
-
+    if args.pdf:
+        find_chromium()  # a missing browser is bad input: exit 2 before any work
     if args.scenario:
 
         result = run_scenario(args.site, args.scenario, args.out, jobs=args.jobs,
-                              audit_date=args.audit_date, progress=not args.quiet)
+                              audit_date=args.audit_date, progress=not args.quiet,
+                              pdf=args.pdf, keep_notebooks=args.keep_notebooks)
     else:
         result = run_batch(args.site, args.out, jobs=args.jobs, only=args.only,
-                           audit_date=args.audit_date, progress=not args.quiet)
+                           audit_date=args.audit_date, progress=not args.quiet,
+                           pdf=args.pdf, keep_notebooks=args.keep_notebooks)
     for failed in result.failures:
         print(f"could not audit {failed.id}: {failed.error}", file=sys.stderr)
+    for page, error in result.pdf_errors.items():
+        print(f"could not print {page} to PDF: {error}", file=sys.stderr)
     print(result.index_path)
-    return 1 if result.failures else 0
+    return 1 if result.failures or result.pdf_errors else 0
 
 
 def _add_import_parser(subparsers) -> None:

@@ -3,6 +3,10 @@
 Both are written from the enclosures' own results (each workbook's report data, see
 :func:`audit_lib.report.enclosure.enclosure_results`); nothing here computes a figure. Keys are
 listed in ``docs/batch-reports.md``; checks carry their stable ``check_id``.
+``results.json`` keeps full precision; ``results.csv`` holds each figure rounded as the reports
+show it (:mod:`audit_lib.report.formats`), with ``site`` and ``audit_date`` on every row so the
+files of several audits stack, and is written as UTF-8 with a byte-order mark so spreadsheets
+read non-ASCII names correctly.
 Sources: RFC 8259 (JSON: no NaN or Infinity, so they become null) and RFC 4180 (CSV).
 """
 
@@ -14,10 +18,12 @@ import io
 import math
 
 from audit_lib import __version__
+from audit_lib.report.formats import check_rounded
 
 #: Columns of ``results.csv`` (one row per check; one row per enclosure that failed).
-CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "check_id", "value", "unit",
-               "target_low", "target_high", "state", "reason", "error")
+CSV_COLUMNS = ("site", "audit_date", "enclosure", "enclosure_name", "verdict", "check",
+               "check_id", "value", "unit", "target_low", "target_high", "state", "reason",
+               "error")
 #: Keys of a check in ``results.json`` (docs/batch-reports.md).
 CHECK_KEYS = ("check_id", "name", "species", "value", "unit", "target_low", "target_high",
               "state", "reason")
@@ -51,19 +57,32 @@ def results_document(result) -> dict:
     return doc
 
 
+def _shown(check: dict, key: str):
+    value = check_rounded(check, key)
+    if value is None or math.isinf(value):
+        return ""
+    return str(int(value)) if value.is_integer() else repr(value)
+
+
 def results_csv(doc: dict) -> str:
-    """Return ``results.csv``: one row per check, one row per enclosure without checks."""
+    """Return ``results.csv``: one row per check, one row per enclosure without checks.
+
+    Figures (``value``, ``target_low``, ``target_high``) are rounded as the reports show
+    them, in the check's own ``unit``; an empty cell is a missing figure or no upper limit.
+    The text has no byte-order mark: the caller writes it as ``utf-8-sig``.
+    """
     buf = io.StringIO()
-    writer = csv.DictWriter(buf, fieldnames=CSV_COLUMNS, lineterminator="\n")
+    writer = csv.DictWriter(buf, fieldnames=CSV_COLUMNS, lineterminator="\r\n")
     writer.writeheader()
     for enc in doc["enclosures"]:
-        base = {"enclosure": enc["id"], "enclosure_name": enc["name"],
+        base = {"site": doc.get("site", ""), "audit_date": enc.get("audit_date") or "",
+                "enclosure": enc["id"], "enclosure_name": enc["name"],
                 "verdict": enc["verdict"] or "", "error": enc["error"] or ""}
         if not enc["checks"]:
             writer.writerow(base)
         for check in enc["checks"]:
-            row = dict(base, check=check["name"])
-            row.update({k: ("" if check.get(k) is None else check[k]) for k in CSV_COLUMNS
-                        if k in CHECK_KEYS})
+            row = dict(base, check=check["name"], check_id=check["check_id"],
+                       unit=check["unit"], state=check["state"], reason=check["reason"])
+            row.update({k: _shown(check, k) for k in ("value", "target_low", "target_high")})
             writer.writerow(row)
     return buf.getvalue()
