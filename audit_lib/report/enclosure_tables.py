@@ -17,9 +17,6 @@ from audit_lib.report import formats as fmt
 from audit_lib.report.enclosure import _badge, check_entries, points_table
 from audit_lib.report.formats import Column, HTMLBlock, header, html_table
 
-_SURFACE_KINDS = {"floor": "floor", "basking": "basking", "other": "other"}
-
-
 def surfaces_table(audit) -> HTMLBlock:
     """Per surface: UV Index over it, its shares in range and refuge, vitamin D and light."""
     stats = audit.surface_stats
@@ -29,7 +26,7 @@ def surfaces_table(audit) -> HTMLBlock:
     uvi = by_quantity["uvi"]
     rows = []
     for surface, r in uvi.iterrows():
-        rows.append({"surface": f"{surface} ({_SURFACE_KINDS.get(r['kind'], r['kind'])})",
+        rows.append({"surface": surface,
                      "area": r["area_m2"], "max": r["maximum"], "mean": r["mean"],
                      "min": r["minimum"], "in_range": r["share_in_uvi_range"],
                      "refuge": r["share_refuge"],
@@ -139,7 +136,8 @@ def _replace_by(r) -> str:
 
 def _decay(r) -> str:
     loss = r.get("loss_per_1000h_pct")
-    parts = [f"{int(r.get('points') or 0)} readings"]
+    count = int(r.get("points") or 0)
+    parts = [f"{count} reading{'' if count == 1 else 's'}"]
     if r.get("model"):
         parts.insert(0, escape(str(r["model"])))
     if loss is not None and not pd.isna(loss):
@@ -233,8 +231,8 @@ def previous_html(audit, previous) -> HTMLBlock:
                          "now": fmt.text(values.get("now"), "uvi")})
     table = html_table(
         [{k: (v if k != "what" else escape(v)) for k, v in r.items()} for r in rows],
-        [Column("what", "", "html"), Column("before", f"Previous audit {before}", "html"),
-         Column("now", f"This audit {now}", "html")])
+        [Column("what", "", "html"), Column("before", f"Previous audit {before}", "html_num"),
+         Column("now", f"This audit {now}", "html_num")])
     note = (f"<p class='small'>{escape(previous.missing[0].upper() + previous.missing[1:])}.</p>"
             if previous.missing else
             "<p class='small'>The previous audit's figures are modelled again with this "

@@ -7,7 +7,7 @@ writes it for a page and :func:`rounded` gives the same figure as a number for
 ``results.csv``, so the two never disagree. :func:`html_table` builds the designed tables
 (escaped text, numbers right-aligned, headers that wrap).
 
-Precision, common practice (from memory): handheld UV Index meters read to 0.1 UVI (0.01 below 1); lamp
+Precision, common practice (from memory): handheld UV Index meters read to 0.1 UVI; lamp
 hours, days and minutes are whole; illuminance meters to about 3 significant figures;
 a spectroradiometer resolves about 1 nm; shares are shown in whole per cent.
 """
@@ -44,21 +44,18 @@ class Quantity:
         Fixed decimals of the shown value.
     significant : int or None
         Significant figures instead (for figures spanning decades).
-    fine_below : float or None
-        One more decimal for shown values below this size (a refuge's 0.38 UVI).
     """
 
     unit: str
     scale: float = 1.0
     decimals: int | None = None
     significant: int | None = None
-    fine_below: float | None = None
 
 
 #: Every kind of figure the reports show. Stored values are the library's (shares as
 #: fractions, SI units); shown values are scaled and rounded here.
 QUANTITIES = {
-    "uvi": Quantity("UVI", decimals=1, fine_below=1.0),
+    "uvi": Quantity("UVI", decimals=1),
     "share_pct": Quantity("%", 100.0, decimals=0),
     "small_share_pct": Quantity("%", 100.0, significant=2),
     "hours": Quantity("h", decimals=1),
@@ -108,8 +105,7 @@ def _missing(value) -> bool:
 
 def _decimals(shown: float, q: Quantity, extra: int = 0) -> int:
     if q.decimals is not None:
-        fine = q.fine_below is not None and 0 < abs(shown) < q.fine_below
-        return q.decimals + extra + fine
+        return q.decimals + extra
     if shown == 0:
         return 0
     return max(0, q.significant - 1 - math.floor(math.log10(abs(shown)))) + extra
@@ -251,7 +247,7 @@ class Column:
         Header text, units in brackets (:func:`header`).
     quantity : str or None
         Key of :data:`QUANTITIES` for a number; None for text (escaped), "date" for a date,
-        "html" for finished HTML (a state badge).
+        "html" for finished HTML (a state badge), "html_num" for a finished figure.
     """
 
     key: str
@@ -260,8 +256,9 @@ class Column:
 
 
 def _cell(value, column: Column) -> tuple[str, str]:
-    if column.quantity == "html":
-        return str(value or ""), ""
+    if column.quantity in ("html", "html_num"):
+        return str(value if value is not None else MISSING), \
+            "num" if column.quantity == "html_num" else ""
     if column.quantity == "date":
         return date_text(value), "num"
     if column.quantity is not None:
@@ -288,7 +285,7 @@ def html_table(rows, columns, *, css_class: str = "data", caption: str = "",
     row_header : bool
         The first column names the row (``<th scope="row">``).
     """
-    head = "".join(f'<th scope="col" class="{"num" if c.quantity not in (None, "html") else ""}">'
+    head = "".join(f'<th scope="col"{"" if c.quantity in (None, "html") else " class=num"}>'
                    f"{escape(c.title)}</th>" for c in columns)
     body = []
     for row in rows:
@@ -297,7 +294,7 @@ def html_table(rows, columns, *, css_class: str = "data", caption: str = "",
             content, cls = _cell(row.get(column.key), column)
             tag = "th" if i == 0 and row_header else "td"
             scope = ' scope="row"' if tag == "th" else ""
-            cells.append(f'<{tag}{scope} class="{cls}">{content}</{tag}>')
+            cells.append(f'<{tag}{scope}{f" class={cls}" if cls else ""}>{content}</{tag}>')
         body.append("<tr>" + "".join(cells) + "</tr>")
     cap = f"<caption>{escape(caption)}</caption>" if caption else ""
     return HTMLBlock(f'<div class="table-wrap"><table class="{css_class}">{cap}<thead><tr>'

@@ -225,9 +225,9 @@ def verdicts_html(overview: SiteOverview) -> HTMLBlock:
     columns = [Column("enclosure", "Enclosure"),
                *([Column("date", "Audit date", "date")] if mixed else []),
                Column("zone", "Zone", "count"), Column("verdict", "Verdict", "html"),
-               Column("bask", header("Basking maximum (target)", "uvi"), "html"),
-               Column("mean", header("Animal's mean", "uvi"), "html"),
-               Column("refuge", header("Low-UV refuge share of floor", "share_pct"), "html"),
+               Column("bask", "Basking maximum [UVI] (target)", "html_num"),
+               Column("mean", header("Animal's mean", "uvi"), "html_num"),
+               Column("refuge", header("Low-UV refuge share of floor", "share_pct"), "html_num"),
                Column("off", "Checks outside range", "count")]
     return html_table(rows, columns)
 
