@@ -1,4 +1,8 @@
-"""A real browser opens the batch's index and one report (headless Chromium via Playwright).
+"""A real browser opens the batch's pages (headless Chromium via Playwright).
+
+Every demo page (both sample sites: index, overview and every enclosure report) is shown at
+1280 px and must have no table wider than its column or the page (``scrollWidth`` against
+the container's ``clientWidth``, CSSOM View); a full-page screenshot of each is kept.
 
 External references: Chromium's headless mode and its documented switches for running as
 root on a closed network (``--no-sandbox``, ``--disable-background-networking``,
@@ -16,6 +20,7 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 SMALL = ROOT / "sample_sites" / "ashdown-private-collection"
+DEMO = ROOT / "sample_sites" / "kestrel-moor-wildlife-park"
 ARTIFACTS = ROOT / "test-artifacts"
 CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
 ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
@@ -42,7 +47,7 @@ def page():
     playwright = pytest.importorskip("playwright.sync_api")
     with playwright.sync_playwright() as p:
         browser = p.chromium.launch(executable_path=CHROMIUM, args=ARGS)
-        yield browser.new_page(viewport={"width": 1100, "height": 1400})
+        yield browser.new_page(viewport={"width": 1280, "height": 1400})
         browser.close()
 
 
@@ -80,3 +85,46 @@ def test_report_in_a_browser(batch_out, page):
     ARTIFACTS.mkdir(exist_ok=True)
     page.screenshot(path=str(ARTIFACTS / "report.png"), full_page=True)
     assert problems == []
+
+
+# every table: its width against its container and the page (CSSOM View scrollWidth,
+# clientWidth and getBoundingClientRect)
+_OVERFLOW = """() => {
+  const page = document.documentElement.clientWidth;
+  const wide = [];
+  for (const t of document.querySelectorAll("table")) {
+    const box = t.getBoundingClientRect();
+    if (box.right > page + 1 || t.scrollWidth > t.parentElement.clientWidth + 1)
+      wide.push(`${t.className || t.id}: ${Math.round(box.right)} of ${page} px`);
+  }
+  return {page: document.documentElement.scrollWidth, width: page, wide: wide};
+}"""
+
+
+@pytest.fixture(scope="module")
+def demo_out(tmp_path_factory):
+    from audit_lib.run.batch import run_batch
+
+    out = tmp_path_factory.mktemp("browser-demo") / "out"
+    result = run_batch(DEMO, out, progress=False)
+    assert not result.failures
+    return out
+
+
+def test_no_table_overflows_any_demo_page_at_1280_px(batch_out, demo_out, page):
+    """Every page of both demo sites at 1280 px: no table wider than the page or its column,
+    no horizontal scrolling, no "NaN" and no snake_case header; a screenshot of each."""
+    ARTIFACTS.mkdir(exist_ok=True)
+    seen = 0
+    for site, out in (("small", batch_out), ("demo", demo_out)):
+        for path in [out / "index.html", *sorted((out / "reports").glob("*.html"))]:
+            problems = _open(page, path)
+            found = page.evaluate(_OVERFLOW)
+            assert found["wide"] == [] and found["page"] <= found["width"], (path.name, found)
+            headers = page.eval_on_selector_all("th", "els => els.map(e => e.innerText)")
+            assert not [h for h in headers if "_" in h], (path.name, headers)
+            assert "NaN" not in page.inner_text("body"), path.name
+            page.screenshot(path=str(ARTIFACTS / f"{site}-{path.stem}.png"), full_page=True)
+            assert problems == []
+            seen += 1
+    assert seen >= 2 * 2 + 12 + 3

@@ -108,7 +108,7 @@ def _decimals(shown: float, q: Quantity, extra: int = 0) -> int:
         return q.decimals + extra
     if shown == 0:
         return 0
-    return max(0, q.significant - 1 - math.floor(math.log10(abs(shown)))) + extra
+    return q.significant - 1 - math.floor(math.log10(abs(shown))) + extra  # < 0: tens...
 
 
 def rounded(value, quantity: str, *, extra: int = 0) -> float | None:
@@ -132,8 +132,9 @@ def rounded(value, quantity: str, *, extra: int = 0) -> float | None:
     shown = value * q.scale
     digits = _decimals(shown, q, extra)
     shown = round(shown, digits)
-    return round(shown / q.scale, digits + round(math.log10(q.scale))) if q.scale != 1 \
-        else shown
+    if q.scale != 1:
+        shown = round(shown / q.scale, digits + round(math.log10(q.scale)))
+    return float(shown)
 
 
 def text(value, quantity: str, *, unit: bool = False, extra: int = 0) -> str:
@@ -158,7 +159,7 @@ def text(value, quantity: str, *, unit: bool = False, extra: int = 0) -> str:
     q = QUANTITIES[quantity]
     shown = value * q.scale
     digits = _decimals(shown, q, extra)
-    out = f"{round(shown, digits):.{digits}f}"
+    out = f"{round(shown, digits):.{max(0, digits)}f}"
     if out.startswith("-") and float(out) == 0:
         out = out[1:]
     return f"{out} {q.unit}" if unit and q.unit else out

@@ -65,7 +65,7 @@ def _shown(check: dict, key: str):
 
 
 def results_csv(doc: dict) -> str:
-    """Return ``results.csv``: one row per check, one row per enclosure without checks.
+    """Return ``results.csv``: one row per check, one row per enclosure that failed.
 
     Figures (``value``, ``target_low``, ``target_high``) are rounded as the reports show
     them, in the check's own ``unit``; an empty cell is a missing figure or no upper limit.
@@ -78,8 +78,8 @@ def results_csv(doc: dict) -> str:
         base = {"site": doc.get("site", ""), "audit_date": enc.get("audit_date") or "",
                 "enclosure": enc["id"], "enclosure_name": enc["name"],
                 "verdict": enc["verdict"] or "", "error": enc["error"] or ""}
-        if not enc["checks"]:
-            writer.writerow(base)
+        if not enc["checks"] and (enc["verdict"] or enc["error"]):
+            writer.writerow(base)  # an enclosure not audited in any run has no row
         for check in enc["checks"]:
             row = dict(base, check=check["name"], check_id=check["check_id"],
                        unit=check["unit"], state=check["state"], reason=check["reason"])
