@@ -11,8 +11,8 @@ the figures a report of that day shows with this library version.
 from __future__ import annotations
 
 import datetime as dt
-from pathlib import Path
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import pandas as pd
 

@@ -17,6 +17,7 @@ from audit_lib.report import formats as fmt
 from audit_lib.report.enclosure import _badge, check_entries, points_table
 from audit_lib.report.formats import Column, HTMLBlock, header, html_table
 
+
 def surfaces_table(audit) -> HTMLBlock:
     """Per surface: UV Index over it, its shares in range and refuge, vitamin D and light."""
     stats = audit.surface_stats
@@ -192,7 +193,7 @@ def _reading_label(r) -> str:
 
 
 def previous_html(audit, previous) -> HTMLBlock:
-    """This audit beside the previous one: verdict, basking maximum, checks and lamp readings.
+    """The audit beside the previous one: verdict, basking maximum, checks and lamp readings.
 
     Parameters
     ----------

@@ -27,8 +27,8 @@ from audit_lib.pipeline.forecast import (
     site_replacement_schedule,
 )
 from audit_lib.run.batch import run_batch, run_scenario
-from audit_lib.run.pdf import find_chromium
 from audit_lib.run.notebooks import jupyterlab_command, register_kernel, write_what_if_workbook
+from audit_lib.run.pdf import find_chromium
 from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site, new_site, summarise_site
 from audit_lib.site.schema import parse_quantity
