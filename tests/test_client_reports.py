@@ -234,7 +234,7 @@ def test_kept_notebooks_are_linked(tmp_path):
 @pytest.mark.skipif(shutil.which("chromium") is None, reason="Debian's chromium not installed")
 def test_pdf_beside_every_page(tmp_path):
     """--pdf: every report, the overview and the index get a PDF (ISO 32000 header) beside
-    their HTML, and the index links them."""
+    their HTML, the index links them, and no PDF holds a path of this machine."""
     from audit_lib.run.cli import main
 
     out = tmp_path / "out"
@@ -242,8 +242,10 @@ def test_pdf_beside_every_page(tmp_path):
     pages = [out / "index.html", *sorted((out / "reports").glob("*.html"))]
     assert len(pages) >= 3
     for page in pages:
-        pdf = page.with_suffix(".pdf")
-        assert pdf.read_bytes()[:5] == b"%PDF-", pdf
+        pdf = page.with_suffix(".pdf").read_bytes()
+        assert pdf[:5] == b"%PDF-", page
+        # no address of this machine in a link annotation (ISO 32000-1, 12.6.4.7 URI actions)
+        assert b"file://" not in pdf and str(out).encode() not in pdf, page
     index = (out / "index.html").read_text(encoding="utf-8")
     assert 'href="reports/site-overview.pdf"' in index
     assert not list(out.rglob(".*.part-*"))

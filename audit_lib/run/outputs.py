@@ -8,6 +8,8 @@ atomically, with every error message made client-clean (no absolute machine path
 from __future__ import annotations
 
 import json
+import os
+import re
 from pathlib import Path
 
 from audit_lib import __version__
@@ -19,6 +21,8 @@ from audit_lib.run.results import results_csv, results_document
 
 #: Folder of the reports inside the output folder.
 REPORTS_DIR = "reports"
+#: A link of the index: its address and text (for the printed copy: the file's name).
+_LINK = re.compile(r'<a href="(?:[^"/]*/)*([^"]*)">[^<]*</a>')
 
 
 def shown_paths(site_dir: Path, out_dir: Path) -> dict:
@@ -65,5 +69,18 @@ def write_pdfs(result, site, chromium: str) -> None:
              if o is not None and o.report and not o.error]
     errors = print_pdfs([result.out_dir / p for p in pages], chromium=chromium)
     write_outputs(result, site)  # the index now links the PDFs
-    errors.update(print_pdfs([result.index_path], chromium=chromium))
-    result.pdf_errors = {p.relative_to(result.out_dir).as_posix(): e for p, e in errors.items()}
+    # Chromium turns each link into an absolute file:// address of this machine, so the
+    # index is printed from a copy whose links are plain file names
+    printable = result.out_dir / f".index-print-{os.getpid()}.html"
+    write_atomic(printable, _LINK.sub(lambda m: f'<span class="file">{m.group(1)}</span>',
+                                      result.index_path.read_text(encoding="utf-8")))
+    try:
+        errors.update(print_pdfs([printable], chromium=chromium))
+        pdf = printable.with_suffix(".pdf")
+        if pdf.exists():
+            os.replace(pdf, result.index_path.with_suffix(".pdf"))
+    finally:
+        printable.unlink(missing_ok=True)
+    result.pdf_errors = {("index.html" if p == printable else
+                          p.relative_to(result.out_dir).as_posix()): e
+                         for p, e in errors.items()}
