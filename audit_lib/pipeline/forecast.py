@@ -170,19 +170,29 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
             for file, table in zip(files, tables, strict=True)]
 
 
-def zone_of_enclosure(site, enclosure) -> int | None:
-    """Highest Ferguson zone among an enclosure's species (site table over library table)."""
-    species = species_targets(site.records.species)
+def zone_of_enclosure(site, enclosure, species=None) -> int | None:
+    """Highest Ferguson zone among an enclosure's species (site table over library table).
+
+    ``species`` is :func:`species_targets` of the site when the caller has it already.
+    """
+    species = species_targets(site.records.species) if species is None else species
     found = [species[s].zone for s in enclosure.species if s in species]
     return max(found) if found else None
 
 
-def basking_uvi_targets(site) -> dict[str, float]:
+def basking_uvi_targets(site, enclosure_ids=None) -> dict[str, float]:
     """Lowest acceptable basking UV Index per enclosure.
 
     That is the lower end of the zone's maximum-UVI range (Ferguson et al. 2010, Zoo
     Biology 29:317; :func:`audit_lib.judge.targets.read_zone_table`, see the status of its values
     there), for the highest zone among the enclosure's species.
+
+    Parameters
+    ----------
+    site : audit_lib.site.folder.Site
+        A loaded site.
+    enclosure_ids : iterable of str, optional
+        Only these enclosures (all by default).
 
     Returns
     -------
@@ -190,9 +200,13 @@ def basking_uvi_targets(site) -> dict[str, float]:
         Enclosure id -> UV Index [-]; enclosures with no known species zone are left out.
     """
     zones = read_zone_table()
+    species = species_targets(site.records.species)
+    wanted = None if enclosure_ids is None else set(enclosure_ids)
     targets = {}
     for enclosure in site.records.enclosures:
-        zone = zone_of_enclosure(site, enclosure)
+        if wanted is not None and enclosure.id not in wanted:
+            continue
+        zone = zone_of_enclosure(site, enclosure, species)
         if zone is not None:
             targets[enclosure.id] = zones[zone].max_uvi_low
     return targets
@@ -206,9 +220,12 @@ def meter_corrected(site, readings: pd.DataFrame) -> tuple[pd.DataFrame, set]:
     F* x raw; other readings are kept raw. Returns the readings and the set of
     ``(enclosure, lamp)`` whose readings were corrected.
     """
+    if readings.empty:
+        return readings, set()
     factors = {(r.meter, r.enclosure, r.lamp): r.correction_factor
-               for r in site_meter_corrections(site).itertuples(index=False)}
-    if not factors or readings.empty:
+               for r in site_meter_corrections(site, set(readings["enclosure"]))
+               .itertuples(index=False)}
+    if not factors:
         return readings, set()
     fixed = correct_readings(readings, factors)
     use = fixed["value_si_corrected"].notna()
@@ -247,7 +264,9 @@ def lamp_forecasts(site, readings: pd.DataFrame, installs: pd.DataFrame, *, toda
         :func:`audit_lib.history.decay.schedule_table` columns plus ``age_days`` and
         ``meter_corrected``; the analyses of the lamps with readings.
     """
-    thresholds = basking_uvi_targets(site) if target_uvi is None else float(target_uvi)
+    enclosures = set(installs["enclosure"]) | set(readings["enclosure"])
+    thresholds = basking_uvi_targets(site, enclosures) if target_uvi is None \
+        else float(target_uvi)
     corrected_lamps: set = set()
     if correct_meters:
         readings, corrected_lamps = meter_corrected(site, readings)
