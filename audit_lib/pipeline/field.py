@@ -19,7 +19,8 @@ reading points to a lamp problem. It adds no physics of its own:
   On the audit day itself the expected value *is* the audit's ``modelled_uvi``.
 * The band is ``expected ± max(k·u·expected, one display step)`` with
   ``u = sqrt(u_meter² + u_model²)``: :data:`METER_UNCERTAINTY` (project default) and the
-  model's spread at the last audit (root mean square of ln(measured / modelled) over at least
+  model's spread at the last audit (root of the sum of ln(measured / modelled) squared over
+  n − 1, the calibration having used one degree of freedom, over at least
   :data:`MIN_SPREAD_POSITIONS` positions reading at least
   :data:`audit_lib.pipeline.steps.CALIBRATION_MIN_UVI`; else :data:`DEFAULT_MODEL_SPREAD`,
   a project default). The band does not widen with the decay forecast's own uncertainty.
@@ -50,9 +51,8 @@ METER_UNCERTAINTY = 0.10
 #: Relative spread of the model at measured positions when the last audit gives too few
 #: positions to measure it [-]. Project default.
 DEFAULT_MODEL_SPREAD = 0.15
-#: Positions needed to measure the model's spread (with one or two, the median calibration
-#: leaves residuals that understate it) [-].
-MIN_SPREAD_POSITIONS = 3
+#: Positions needed to measure the model's spread (one is matched by the calibration) [-].
+MIN_SPREAD_POSITIONS = 2
 #: Coverage factor of the band: ±2 standard uncertainties, about 95 % for a normal
 #: distribution (JCGM 100:2008, the GUM, 6.2) [-].
 COVERAGE_FACTOR = 2.0
@@ -160,7 +160,7 @@ def _model_spread(points: pd.DataFrame) -> tuple[float, str]:
     if len(ok) < MIN_SPREAD_POSITIONS:
         return DEFAULT_MODEL_SPREAD, "project default"
     residuals = np.log(ok["measured_uvi"].to_numpy(float) / ok["modelled_uvi"].to_numpy(float))
-    return float(np.sqrt(np.mean(residuals ** 2))), "last audit"
+    return float(np.sqrt(np.sum(residuals ** 2) / (len(residuals) - 1))), "last audit"
 
 
 def _lamp_outputs(site, enclosure_id: str, audit_day: dt.date, day: dt.date) -> pd.DataFrame:
@@ -208,6 +208,23 @@ def _sheet_positions(record, audit, lamps_on: str) -> pd.DataFrame:
                      ignore_index=True)
 
 
+def _last_readings(site, enclosure_id: str, audit, places: pd.DataFrame) -> list:
+    """The last audit's UV Index at each place.
+
+    At positions, the audit's own (mismatch-corrected) means; for a lamp check, the mean of
+    that lamp's readings of the day with no position.
+    """
+    last = {}
+    if audit.points is not None and len(audit.points) and "measured_uvi" in audit.points:
+        last = dict(zip(audit.points["position"], audit.points["measured_uvi"], strict=True))
+    rows = site.readings_of(enclosure_id)
+    rows = rows[(pd.to_datetime(rows["date"]).dt.date == audit.audit_date)
+                & (rows["quantity"] == "uvi") & (rows["position"].fillna("") == "")]
+    checks = rows.groupby("lamp")["value_si"].mean().to_dict() if len(rows) else {}
+    return [checks.get(p.lamp, math.nan) if p.kind == "lamp check" else
+            last.get(p.position, math.nan) for p in places.itertuples(index=False)]
+
+
 def _enclosure_field(site, enclosure_id: str, day: dt.date, spacing_m: float
                      ) -> EnclosureField:
     record = site.enclosure(enclosure_id)
@@ -235,10 +252,7 @@ def _enclosure_field(site, enclosure_id: str, day: dt.date, spacing_m: float
     places["expected_uvi"] = expected
     places["low_uvi"] = np.maximum(expected - half, 0.0)
     places["high_uvi"] = expected + half
-    last = {}
-    if audit.points is not None and len(audit.points) and "measured_uvi" in audit.points:
-        last = dict(zip(audit.points["position"], audit.points["measured_uvi"], strict=True))
-    places["last_uvi"] = [last.get(p, math.nan) if p else math.nan for p in places["position"]]
+    places["last_uvi"] = _last_readings(site, enclosure_id, audit, places)
     return EnclosureField(enclosure_id=enclosure_id, enclosure_name=record.name,
                           species=list(record.species), audit_date=audit_day,
                           calibration=audit.calibration, model_spread=spread,
