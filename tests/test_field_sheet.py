@@ -115,7 +115,7 @@ def test_band_combines_meter_and_model_in_quadrature(sheets):
             2.0 * math.sqrt(field.METER_UNCERTAINTY ** 2 + part.model_spread ** 2))
         rows = part.positions
         half = (rows["expected_uvi"] * part.tolerance).clip(lower=field.DISPLAY_STEP_UVI)
-        assert rows["high_uvi"].to_numpy() == pytest.approx((rows["expected_uvi"] + half))
+        assert rows["high_uvi"].to_numpy() == pytest.approx(rows["expected_uvi"] + half)
         assert rows["low_uvi"].to_numpy() == pytest.approx(
             (rows["expected_uvi"] - half).clip(lower=0.0))
     # the demo's readings were synthesised from its lamp models: every reading of the last
