@@ -64,7 +64,7 @@ DISPLAY_STEP_UVI = 0.1
 LAMP_CHECK_DISTANCE_M = 0.3
 
 #: How a lamp's output on the day is found (``output_basis`` of the lamps table).
-OUTPUT_BASES = ("decay fit", "as at the last audit", "installed after the last audit")
+OUTPUT_BASES = ("decay fit", "no decay fit", "installed after the last audit")
 
 
 @dataclass
@@ -174,7 +174,7 @@ def _lamp_outputs(site, enclosure_id: str, audit_day: dt.date, day: dt.date) -> 
         installed_on = pd.Timestamp(install["installed_on"]) if install is not None else pd.NaT
         daily = float(install["daily_hours"]) if install is not None else math.nan
         hours = lamp_hours(installed_on, daily, day) if install is not None else math.nan
-        ratio, basis = 1.0, "as at the last audit"
+        ratio, basis = 1.0, "no decay fit"
         fit = fits[lamp.id].fit.best_fit if lamp.id in fits else None
         if install is not None and installed_on.date() > audit_day:
             ratio, basis = math.nan, "installed after the last audit"

@@ -201,6 +201,6 @@ def readings_template_csv(sheet) -> str:
     header = (f"# Readings template for {sheet.site_name}, {sheet.date.isoformat()} "
               "(written by light-audit field-sheet).\n"
               "# Fill the value column as the meter shows it, delete the rows you did not "
-              "measure, then copy this file into the site's readings/ folder and run "
-              "'light-audit check'.\n")
+              "measure (and change the date if you measured on another day), then copy this "
+              "file into the site's readings/ folder and run 'light-audit check'.\n")
     return header + table.to_csv(index=False, lineterminator="\n")
