@@ -123,11 +123,12 @@ def test_previous_audit_comes_from_the_history_and_the_same_pipeline(tmp_path):
 
 def test_pdf_without_chromium_exits_2_before_any_work(tmp_path, monkeypatch, capsys):
     """The command's contract: bad input (no browser for --pdf), exit 2, nothing written."""
+    from audit_lib.errors import InputError
     from audit_lib.run.cli import main
     from audit_lib.run.pdf import find_chromium
 
     monkeypatch.setenv("PATH", str(tmp_path / "empty"))
-    with pytest.raises(Exception, match="needs the Chromium web browser"):
+    with pytest.raises(InputError, match="cannot write a PDF: Chromium is not installed"):
         find_chromium()
     out = tmp_path / "out"
     assert main(["run", str(SMALL), "--out", str(out), "--pdf", "--quiet"]) == 2
