@@ -256,8 +256,7 @@ def test_demo_figures_agree_across_results_csv_index_and_overview(demo_run):
                 assert row["value"] == ""
             else:
                 assert float(row["value"]) == check_rounded(check)
-                assert check_rounded(check) == pytest.approx(check["value"], abs=0.05,
-                                                             rel=0.01)
+                assert check_rounded(check) == pytest.approx(check["value"], abs=0.5)
         bask = next(c for c in entry["checks"] if c["check_id"] == "basking_uvi_max")
         assert f"{check_text(bask)} <" in overview_html
         for lamp in entry["lamps"]:
