@@ -32,6 +32,7 @@ from audit_lib.judge.targets import (
     REFUGE_UVI_MAX,
     SHORT_UVB_SHARE,
     SHORT_UVB_TOLERANCE,
+    UVI_TOP_CHECKS,
     SpeciesTarget,
     Zone,
     check_basking_max,
@@ -40,6 +41,7 @@ from audit_lib.judge.targets import (
     check_mean_exposure,
     check_refuge,
     check_short_wave_share,
+    check_used_area_max,
 )
 
 MEETS, ATTENTION = "meets targets", "needs attention"
@@ -127,7 +129,7 @@ def overall_state(checks) -> tuple[str, str]:
     if out:
         names = "; ".join(f"{c.name} {c.state}" for c in out)
         return ATTENTION, f"{len(out)} of {len(checks)} checks are out of range: {names}."
-    if not checks or any(c.id == BASKING_UVI_MAX for c in missing):
+    if not checks or any(c.id in UVI_TOP_CHECKS for c in missing):
         return NO_DATA, "The basking UV Index maximum is missing, so the zone cannot be judged."
     names = ", ".join(c.name for c in missing)
     extra = f" ({len(missing)} could not be made for lack of data: {names})" if missing else ""
@@ -255,7 +257,8 @@ def recommend_actions(
     """
     by_id = {c.id: c for c in checks}
     actions: list[Action] = []
-    bask = by_id.get(BASKING_UVI_MAX)
+    bask = by_id.get(BASKING_UVI_MAX) or next(
+        (by_id[i] for i in UVI_TOP_CHECKS if i in by_id), None)  # the UV Index top check
     if bask is not None and bask.state in (BELOW, ABOVE):
         actions += _basking_actions(
             bask, height_search, emitters_for_uvi, current_emitters, screen_transmission, lamp,
@@ -317,6 +320,7 @@ def assess_enclosure(
     keeper_limit_s=None,
     keeper_time_s: float = KEEPER_TIME_S,
     working_distance_m=None,
+    used_area_max_uvi=None,
     **action_inputs,
 ) -> Verdict:
     """Every check for one enclosure and species, the overall verdict and the actions.
@@ -346,6 +350,10 @@ def assess_enclosure(
         Keeper's daily time at the working distance [s].
     working_distance_m : float, optional
         Keeper's working distance [m].
+    used_area_max_uvi : float, optional
+        Highest UV Index over the area the animal uses: judged instead of the basking
+        maximum for a species given UV as a whole-enclosure gradient
+        (:data:`audit_lib.judge.targets.PROVISION_CHECKS`) [-].
     **action_inputs
         Passed to :func:`recommend_actions` (``height_search``, ``screen_transmission``, ...).
 
@@ -357,8 +365,10 @@ def assess_enclosure(
         raise InputError(
             f"species {species.id!r} is in zone {species.zone}, not {zone.zone}", field="zone"
         )
+    top = (check_used_area_max(used_area_max_uvi, zone) if species.uv_provision == "gradient"
+           else check_basking_max(basking_max_uvi, zone))
     checks = (
-        check_basking_max(basking_max_uvi, zone),
+        top,
         check_mean_exposure(mean_uvi, zone),
         check_refuge(refuge_share, min_share=refuge_min_share, refuge_uvi_max=refuge_uvi_max),
         check_light_hours(light_hours, light_hours_range, light_hours_source),
