@@ -287,10 +287,11 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
                          species=species, zones=zones, profiles=profiles,
                          spectra_metrics=spectra, audit_date=day, spacing_m=spacing_m,
                          replacement_date=replace_by,
-                         unknown_species=[s for s in record.species if s not in known])
+                         unknown_species=[s for s in record.species if s not in known],
+                         target_settings=targets.TargetSettings.from_record(site.records.targets))
     zone = found.zone
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
-    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
+    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=found.target_settings.refuge_uvi_max)
 
     sun_lat, sun_lon, sun_offset, sun_place = steps.sun_place(site, species, day)
     monthly = None

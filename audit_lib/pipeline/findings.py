@@ -8,7 +8,13 @@ audit day's readings, the planner to the plan's output share. Everything after t
 
 * Basking maximum: highest UV Index over the basking surfaces (the floor if there are none),
   at the brightest cell of the map (the "peak point").
-* Refuge: share of the floor cells at or below :data:`audit_lib.judge.targets.REFUGE_UVI_MAX`.
+* Used area (species given UV as a whole-enclosure gradient): highest UV Index over the
+  places of the time budget (each surface's whole map, each named position's point); all
+  surfaces and the floor without a time budget. Judged instead of the basking maximum
+  (:data:`audit_lib.judge.targets.PROVISION_CHECKS`); the height action then works on the
+  surface holding that maximum (the basking surface if it lies at a named position).
+* Refuge: share of the floor cells at or below the refuge UV Index (project default
+  :data:`audit_lib.judge.targets.REFUGE_UVI_MAX`, or the site's ``[targets]`` setting).
 * The day: each lamp's contribution at the peak point times its output profile (schedules);
   daily doses there; hours with any lamp on.
 * Animal mean: the time budget's share-weighted mean UV Index while active, each place
@@ -83,6 +89,12 @@ class Findings:
         Shortest keeper limit at the working distance, lamps as new [s].
     short_uvb_fraction : float or None
         Highest 280-290 nm share of UVB over the lamp models [-].
+    used_area_max_uvi : float or None
+        Highest UV Index over the area the animal uses [-].
+    used_area_place : str
+        The place (surface or position) holding it.
+    target_settings : TargetSettings
+        The site's targets (project defaults unless the site sets them).
     verdicts : list of Verdict
         One per species.
     verdict, reason : str
@@ -107,6 +119,9 @@ class Findings:
     mean_uvi: float | None = None
     keeper_limit_s: float | None = None
     short_uvb_fraction: float | None = None
+    used_area_max_uvi: float | None = None
+    used_area_place: str = ""
+    target_settings: targets.TargetSettings = field(default_factory=targets.TargetSettings)
     verdicts: list = field(default_factory=list)
     verdict: str = targets.NO_DATA
     reason: str = ""
@@ -188,7 +203,7 @@ def short_uvb_fraction(spectra_metrics: dict) -> float | None:
 def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles,
                  spectra_metrics, audit_date, spacing_m, main_lamp=None,
                  replacement_date=None, unknown_species=(), cache=None,
-                 cache_key=None) -> Findings:
+                 cache_key=None, target_settings=None) -> Findings:
     """From one enclosure's UV Index maps to its figures, checks, verdict and actions.
 
     Parameters
@@ -224,6 +239,9 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     cache, cache_key : optional
         ``cache(kind, key, build)`` memoises stages across calls for one placement
         ``cache_key`` (the what-if planner); no caching by default.
+    target_settings : TargetSettings, optional
+        The site's targets (:meth:`TargetSettings.from_record` of its ``[targets]`` table);
+        the project defaults by default.
 
     Returns
     -------
@@ -234,8 +252,12 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
              for s in unknown_species]
     zone = zones[max(s.zone for s in species)] if species else None
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
+    settings = target_settings or targets.TargetSettings()
+    if settings.overridden:
+        notes.append("This site sets its own targets instead of the project defaults: "
+                     + "; ".join(settings.changed()) + ".")
     surface, peak, basking_max = _peak(scene, maps)
-    refuge = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
+    refuge = float(np.mean(maps["floor"].values["uvi"] <= settings.refuge_uvi_max))
     at_peak = cache("peak", (cache_key, failed, tuple(peak)),
                     lambda: per_lamp_values(scene, peak[None, :], failed))
     uvi_peak = {k: scale * float(v[0]) for k, v in at_peak["uvi"].items()}
@@ -243,7 +265,10 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     found = Findings(species=list(species), zone=zone, basking_surface=surface,
                      peak_point_m=peak, basking_max_uvi=basking_max, refuge_share=refuge,
                      uvi_at_peak=uvi_peak, vitamin_d_at_peak=vitd_peak, profiles=profiles,
-                     notes=notes)
+                     target_settings=settings, notes=notes)
+    if any(s.uv_provision == "gradient" for s in species):
+        found.used_area_place, found.used_area_max_uvi = _used_area_max(
+            record, scene, maps, failed, scale)
     if profiles is not None:
         found.light_hours = lit_hours_of_table(profiles)
         found.daily_uvi = uvi_series(uvi_peak, profiles)
@@ -255,8 +280,30 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
                                  lambda: keeper_limit(scene, record, failed))
     found.short_uvb_fraction = short_uvb_fraction(spectra_metrics)
     _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key)
+           replacement_date, cache, cache_key, maps)
     return found
+
+
+def _used_area_max(record, scene, maps, failed, scale) -> tuple[str, float]:
+    """Place and value of the highest UV Index over the area the animal uses [-].
+
+    The places of the time budget with a share above zero (a surface by its whole map, a
+    named position by its point); every surface and the floor without a time budget.
+    """
+    used = [k for k, share in record.time_budget.items() if share > 0] or list(maps)
+    positions = {p.id: p for p in record.positions}
+    values = {}
+    for name in used:
+        if name in maps:
+            values[name] = float(maps[name].values["uvi"].max())
+        elif name in positions:
+            p = positions[name]
+            per = per_lamp_values(scene, np.array([[p.x_m, p.y_m, p.z_m]]), failed)["uvi"]
+            values[name] = scale * float(sum(float(v[0]) for v in per.values()))
+    if not values:
+        return "", None
+    place = max(values, key=values.get)
+    return place, values[place]
 
 
 def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) -> None:
@@ -290,18 +337,25 @@ def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) ->
 
 
 def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key) -> None:
+           replacement_date, cache, cache_key, maps) -> None:
     """Checks, verdicts and actions of every species; the overall state and reason."""
     main = None
     if scene.lamps:
         main = next((p for p in scene.lamps if p.id == main_lamp), None) or max(
             scene.lamps, key=lambda p: found.uvi_at_peak.get(p.id, 0.0))
 
-    def height_search(uvi_range, aim):
-        key = (cache_key, failed, scale, found.basking_surface, tuple(uvi_range), aim)
-        return cache("height", key, lambda: height_for_target(
-            scene, main.id, found.basking_surface, uvi_range, aim_uvi=aim, failed=failed,
-            scale=scale, spacing_m=spacing_m))
+    def search_on(surface):
+        def height_search(uvi_range, aim):
+            key = (cache_key, failed, scale, surface, tuple(uvi_range), aim)
+            return cache("height", key, lambda: height_for_target(
+                scene, main.id, surface, uvi_range, aim_uvi=aim, failed=failed,
+                scale=scale, spacing_m=spacing_m))
+        return height_search if main is not None else None
+
+    def surface_of(species):  # where the species' UV Index top check is made
+        if species.uv_provision == "gradient" and found.used_area_place in maps:
+            return found.used_area_place
+        return found.basking_surface
 
     screens = [s.transmission for s in scene.screens if s.transmission is not None]
     sun_short = sun_reference()["short_uvb_fraction"]
@@ -311,7 +365,9 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
         light_hours=found.light_hours, short_uvb_fraction=found.short_uvb_fraction,
         sun_short_uvb_fraction=sun_short, keeper_limit_s=found.keeper_limit_s,
         working_distance_m=record.keeper_working_distance_m,
-        height_search=height_search if main is not None else None,
+        used_area_max_uvi=found.used_area_max_uvi,
+        **found.target_settings.assess_kwargs(),
+        height_search=search_on(surface_of(s)),
         screen_transmission=min(screens) if screens else None,
         floor_area_m2=record.width_m * record.depth_m, replacement_date=replacement_date,
         audit_date=audit_date, lamp=main.id if main else "") for s in found.species]

@@ -23,7 +23,7 @@ import numpy as np
 
 from audit_lib.day.photoperiod import daily_profiles
 from audit_lib.errors import InputError
-from audit_lib.judge.targets import REFUGE_UVI_MAX, read_zone_table, species_targets
+from audit_lib.judge.targets import TargetSettings, read_zone_table, species_targets
 from audit_lib.light.sun import clear_sky_uvi_day
 from audit_lib.pipeline.assemble import build_lamp, build_scene, failed_labels, lamp_schedule
 from audit_lib.pipeline.audit import DEFAULT_SPACING_M, choose_audit_date
@@ -300,7 +300,8 @@ class WhatIfPlanner:
         species = self._species.get(c.species)
         zone = self._zones[species.zone] if species else None
         max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
-        stats = {n: surface_statistics(m, max_range, REFUGE_UVI_MAX)
+        settings = TargetSettings.from_record(site.records.targets)
+        stats = {n: surface_statistics(m, max_range, settings.refuge_uvi_max)
                  for n, m in maps.items()}
         record = site.enclosure(self.enclosure_id)
         profiles = None
@@ -317,7 +318,7 @@ class WhatIfPlanner:
             species=[species] if species else [], zones=self._zones, profiles=profiles,
             spectra_metrics=spectra, audit_date=self.day,
             spacing_m=DEFAULT_SPACING_M, main_lamp=c.lamp,  # height search on the reports' grid
-            cache=self._cached, cache_key=self._place_key(c))
+            cache=self._cached, cache_key=self._place_key(c), target_settings=settings)
         t3 = time.perf_counter()
         notes = [f"On {part:.0%} of {name!r} a lamp known from readings is used outside the "
                  "distances it was measured at: values there are extrapolated."
