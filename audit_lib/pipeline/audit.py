@@ -291,7 +291,8 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
                          target_settings=targets.TargetSettings.from_record(site.records.targets))
     zone = found.zone
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
-    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=found.target_settings.refuge_uvi_max)
+    stats = statistics_table(maps, uvi_range=max_range,
+                             refuge_below_uvi=found.target_settings.refuge_uvi_max)
 
     sun_lat, sun_lon, sun_offset, sun_place = steps.sun_place(site, species, day)
     monthly = None
