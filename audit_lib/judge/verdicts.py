@@ -138,6 +138,13 @@ def overall_state(checks) -> tuple[str, str]:
     return MEETS, f"{lead} within range{extra}."
 
 
+def _top_words(check) -> str:
+    """What the UV Index top check measures, for action sentences."""
+    if check.id == BASKING_UVI_MAX:
+        return "basking UV Index"
+    return "highest UV Index over the area used"
+
+
 def _mid(low, high):
     return 0.5 * (low + high)
 
@@ -166,7 +173,7 @@ def _height_actions(bask, height_search, goal) -> list[Action]:
         where = (f"down to {answer.heights_m.min() - answer.surface_z_m:.2f} m above the "
                  "basking surface")
         fix = "use a stronger lamp or more emitters"
-    text = (f"No mount height of the lamp {lamp} {where} brings the basking UV Index into "
+    text = (f"No mount height of the lamp {lamp} {where} brings the {_top_words(bask)} into "
             f"{bask.target_low:g}-{bask.target_high:g}: the closest is "
             f"{answer.suggested_uvi:.1f} at {answer.suggested_height_m:.2f} m above the floor; "
             f"{fix}.")
@@ -176,7 +183,7 @@ def _height_actions(bask, height_search, goal) -> list[Action]:
 def _basking_actions(bask, height_search, emitters_for_uvi, current_emitters,
                      screen_transmission, lamp) -> list[Action]:
     target = _mid(bask.target_low, bask.target_high)
-    goal = f"to bring the basking UV Index from {bask.value:.1f} to about {target:.1f}"
+    goal = f"to bring the {_top_words(bask)} from {bask.value:.1f} to about {target:.1f}"
     out = []
     if height_search is not None:
         out += _height_actions(bask, height_search, goal)
