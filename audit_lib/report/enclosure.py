@@ -15,8 +15,9 @@ from html import escape
 import numpy as np
 import pandas as pd
 
-from audit_lib.judge.targets import KEEPER_EXPOSURE_TIME
+from audit_lib.judge.targets import FROM_MEMORY, KEEPER_EXPOSURE_TIME
 from audit_lib.judge.verdicts import unanswered_sentence
+from audit_lib.light.metrics import RISK_GROUPS
 from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.index_page import state_class
 
@@ -74,12 +75,24 @@ def check_entries(audit) -> list[dict]:
     return [{"check_id": c.id, "name": f"{c.name} ({v.species})" if many else c.name,
              "species": v.species, "value": _finite(c.value), "unit": c.unit,
              "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
-             "state": c.state, "reason": c.reason}
+             "state": c.state, "reason": c.reason, "basis": c.basis, "source": c.source}
             for v in audit.verdicts for c in v.checks]
 
 
+def risk_group_entry(metrics: dict) -> dict:
+    """A lamp model's indicative risk group for ``results.json`` (from ``audit.spectra``).
+
+    ``risk_group`` is an integer 0-3 (0 = exempt; index in
+    :data:`audit_lib.light.metrics.RISK_GROUPS`) or None when the model has no spectrum.
+    """
+    name = metrics.get("risk_group")
+    return {"risk_group": RISK_GROUPS.index(name) if name in RISK_GROUPS else None,
+            "risk_group_distance_m": _finite(metrics.get("risk_group_distance_m")),
+            "actinic_w_m2_at_distance": _finite(metrics.get("actinic_w_m2_at_distance"))}
+
+
 def lamp_entries(audit) -> list[dict]:
-    """Every lamp in place with its age and the one replacement forecast."""
+    """Every lamp in place with its age, the one replacement forecast and its model's risk group."""
     t = audit.lamps
     if t is None or not len(t):
         return []
@@ -87,7 +100,8 @@ def lamp_entries(audit) -> list[dict]:
              "hours_now": _finite(r.hours_now), "age_days": int(r.age_days),
              "last_uvi": _finite(r.last_value), "target_min_uvi": _finite(r.target_min),
              "replace_by": _iso(r.replace_by), "forecast_state": r.state,
-             "meter_corrected": bool(r.meter_corrected)}
+             "meter_corrected": bool(r.meter_corrected),
+             **risk_group_entry(audit.spectra.get(r.lamp_model, {}))}
             for r in t.itertuples(index=False)]
 
 
@@ -166,17 +180,25 @@ def summary(audit) -> HTMLBlock:
 
 
 def checks_table(audit) -> HTMLBlock:
-    """Every check: figure, target range, state (word and colour) and reason."""
+    """Every check: figure, target range, state (word and colour), reason, what it rests on."""
     rows = []
     for c in audit.checks:
         target = f"{_num(c.target_low)} – {_num(c.target_high)}"
         rows.append(f"<tr><td>{escape(c.name)}</td><td class='num'>{_num(c.value)}</td>"
                     f"<td>{escape(c.unit)}</td><td class='num'>{target}</td>"
-                    f"<td>{_badge(c.state)}</td><td>{escape(c.reason)}</td></tr>")
+                    f"<td>{_badge(c.state)}</td><td>{escape(c.reason)}</td>"
+                    f"<td>{_basis_cell(c)}</td></tr>")
     return HTMLBlock(
         '<table class="checks"><thead><tr><th>Check</th><th class="num">Figure</th>'
-        '<th>Unit</th><th class="num">Target</th><th>State</th><th>Reason</th></tr></thead>'
-        f"<tbody>{''.join(rows)}</tbody></table>")
+        '<th>Unit</th><th class="num">Target</th><th>State</th><th>Reason</th>'
+        f"<th>Target rests on</th></tr></thead><tbody>{''.join(rows)}</tbody></table>")
+
+
+def _basis_cell(check) -> str:
+    """The check's basis (marked when from memory) and its source in words."""
+    mark = ' class="from-memory"' if check.basis == FROM_MEMORY else ""
+    return (f"<strong{mark}>{escape(check.basis or 'not stated')}</strong><br>"
+            f"<small>{escape(check.source)}</small>")
 
 
 def actions_list(audit) -> HTMLBlock:

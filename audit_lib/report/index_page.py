@@ -35,6 +35,17 @@ def _link(href: str | None, text: str) -> str:
     return f'<a href="{escape(href, quote=True)}">{escape(text)}</a>'
 
 
+def _from_memory_mark(checks) -> str:
+    """A mark after a verdict that rests on target values from memory ("" if none does)."""
+    ids = list(dict.fromkeys(c.get("check_id", "") for c in checks
+                             if c.get("basis") == "from memory"))
+    if not ids:
+        return ""
+    title = "targets recalled, not read in their source: " + ", ".join(ids)
+    return (f' <span class="from-memory" title="{escape(title, quote=True)}">'
+            "from memory</span>")
+
+
 def _row(outcome) -> str:
     if outcome.error:
         verdict = _badge("could not be audited")
@@ -43,7 +54,7 @@ def _row(outcome) -> str:
         verdict = _badge("not run")
         notes = "not audited in this run"
     else:
-        verdict = _badge(outcome.verdict)
+        verdict = _badge(outcome.verdict) + _from_memory_mark(outcome.checks)
         off = [c for c in outcome.checks if c.get("state") not in (None, "within range")]
         notes = " ".join(escape(str(c.get("reason", ""))) for c in off[:4])
         if len(off) > 4:

@@ -17,10 +17,10 @@ from audit_lib import __version__
 
 #: Columns of ``results.csv`` (one row per check; one row per enclosure that failed).
 CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "check_id", "value", "unit",
-               "target_low", "target_high", "state", "reason", "error")
+               "target_low", "target_high", "state", "reason", "error", "basis", "source")
 #: Keys of a check in ``results.json`` (docs/batch-reports.md).
 CHECK_KEYS = ("check_id", "name", "species", "value", "unit", "target_low", "target_high",
-              "state", "reason")
+              "state", "reason", "basis", "source")
 #: Keys of an enclosure entry beyond the outcome's own (from the workbook's results), with
 #: their value when the workbook gave none.
 RESULT_KEYS = {"audit_date": None, "zone": None, "reason": None, "recommendation": None,
