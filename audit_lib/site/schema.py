@@ -503,6 +503,13 @@ class Targets(Record):
     short_uvb_tolerance: Fraction = d.SHORT_UVB_TOLERANCE
     keeper_time_s: float = Field(default=d.KEEPER_TIME_S, gt=0, le=28800)  # up to 8 h
 
+    @field_validator("refuge_min_share", "short_uvb_tolerance", mode="before")
+    @classmethod
+    def _share(cls, value):
+        if isinstance(value, (int, float)) and not 0 <= value <= 1:
+            raise ValueError(f"{value:g} is not a share from 0 to 1 || write 0.25 for 25 %")
+        return value
+
     @model_validator(mode="after")
     def _hours_in_order(self):
         if self.light_hours_min > self.light_hours_max:
