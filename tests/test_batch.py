@@ -255,7 +255,8 @@ def test_demo_figures_agree_across_results_csv_index_and_overview(demo_run):
                 assert row["value"] == ""
             else:
                 assert float(row["value"]) == check["value"]
-        bask = next(c for c in entry["checks"] if c["check_id"] == "basking_uvi_max")
+        bask = next(c for c in entry["checks"]
+                    if c["check_id"] in ("basking_uvi_max", "used_area_uvi_max"))
         assert f"{bask['value']:.2f}" in overview_html
         for lamp in entry["lamps"]:
             assert lamp["replace_by"] is None or lamp["replace_by"] in overview_html
