@@ -280,10 +280,10 @@ def test_from_memory_marks_in_index_and_overview(demo_audits):
                             enclosures=entries)
     table = verdict_table(overview)
     assert (table["from_memory"] != "").all()
-    assert "animal_uvi_mean" in table.loc["rh-04", "from_memory"]
-    assert np.isnan(table.loc["rh-04", "basking_max_uvi"])
-    assert table.loc["rh-04", "used_area_max_uvi"] == pytest.approx(
-        demo_audits["rh-04"][1].checks[0].value, abs=0.005)
+    assert "animal_uvi_mean" in table.loc["rh-06", "from_memory"]
+    assert np.isnan(table.loc["rh-06", "basking_max_uvi"])
+    assert table.loc["rh-06", "used_area_max_uvi"] == pytest.approx(
+        demo_audits["rh-06"][1].checks[0].value, abs=0.005)
     outcomes = [EnclosureOutcome(e["id"], e["name"], e["verdict"], checks=e["checks"])
                 for e in entries]
     page = render_index("park", outcomes)
