@@ -40,6 +40,7 @@ from audit_lib.pipeline import steps
 from audit_lib.pipeline.assemble import build_scene, failed_labels, lamp_schedule
 from audit_lib.pipeline.findings import Findings, collect_notes, find_figures
 from audit_lib.pipeline.forecast import lamp_forecasts, site_lamp_installs
+from audit_lib.pipeline.uncertainty import audit_uncertainty
 from audit_lib.scene.maps import compute_maps, point_values, statistics_table
 from audit_lib.site.checks import calibration_warnings
 from audit_lib.site.folder import load_site
@@ -287,7 +288,8 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
                          species=species, zones=zones, profiles=profiles,
                          spectra_metrics=spectra, audit_date=day, spacing_m=spacing_m,
                          replacement_date=replace_by,
-                         unknown_species=[s for s in record.species if s not in known])
+                         unknown_species=[s for s in record.species if s not in known],
+                         uncertainty=audit_uncertainty(site, enclosure_id, day, points))
     zone = found.zone
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
     stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
