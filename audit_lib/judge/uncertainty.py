@@ -54,9 +54,9 @@ METER_UNCERTAINTY_PCT = {
 #: mismatch under the lamp (no ``spectral_response`` in site.toml): a narrowband or
 #: sun-unlike lamp is weighted differently from the calibration source [%].
 UNCORRECTED_METER_UNCERTAINTY_PCT = {
-    "uv_index_meter": 20.0,
-    "uvb_meter": 25.0,
-    "uva_meter": 20.0,
+    "uv_index_meter": 15.0,
+    "uvb_meter": 20.0,
+    "uva_meter": 15.0,
 }
 #: Project default: a lamp model's rated output, from one reference reading, "± %" [%].
 RATED_OUTPUT_PCT = 20.0

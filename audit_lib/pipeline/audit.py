@@ -102,6 +102,9 @@ class EnclosureAudit:
         warnings, collected by :func:`audit_lib.pipeline.findings.collect_notes`).
     provenance : dict
         What the figures rest on (files, versions, settings).
+    plan : audit_lib.pipeline.plan.Plan or None
+        The changes that bring every check within range (set by
+        :func:`audit_lib.pipeline.plan.audit_with_plan`; None when not planned).
     """
 
     site_name: str
@@ -129,6 +132,7 @@ class EnclosureAudit:
     lamp_spectra: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
+    plan: object = None
 
     species = property(lambda self: self.findings.species, doc="Species judged.")
     zone = property(lambda self: self.findings.zone, doc="Zone of the highest species.")
