@@ -30,7 +30,7 @@ Only the enclosure's main lamp (the one giving most UV at the basking peak) is p
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from itertools import combinations
 
 import numpy as np
@@ -206,7 +206,8 @@ def _coarse(options, n=3):
     """At most ``n`` of the options, spread over the list."""
     if len(options) <= n:
         return options
-    return [options[i] for i in sorted(set(np.linspace(0, len(options) - 1, n).round().astype(int)))]
+    picks = np.linspace(0, len(options) - 1, n).round().astype(int)
+    return [options[i] for i in sorted(set(picks))]
 
 
 #: Placement controls that can move each check that does not scale with output.
@@ -431,10 +432,14 @@ def plan_for_audit(site, audit) -> Plan | None:
     return find_plan(audit_planner(site, audit), checks_before=audit.checks)
 
 
-def audit_with_plan(site, enclosure_id: str, **kwargs):
-    """:func:`audit_lib.pipeline.audit.audit_enclosure` with ``plan`` set (the workbook's call)."""
+def audit_with_plan(site, enclosure_id: str, *, with_plan: bool = True, **kwargs):
+    """:func:`audit_lib.pipeline.audit.audit_enclosure` with ``plan`` set (the workbook's call).
+
+    ``with_plan=False`` skips the search (``plan`` stays None).
+    """
     audit = audit_enclosure(site, enclosure_id, **kwargs)
-    audit.plan = plan_for_audit(site, audit)
+    if with_plan:
+        audit.plan = plan_for_audit(site, audit)
     return audit
 
 

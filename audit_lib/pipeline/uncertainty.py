@@ -11,7 +11,11 @@ from __future__ import annotations
 
 import pandas as pd
 
-from audit_lib.judge.uncertainty import OutputUncertainty, calibration_spread_u, meter_uncertainty_pct
+from audit_lib.judge.uncertainty import (
+    OutputUncertainty,
+    calibration_spread_u,
+    meter_uncertainty_pct,
+)
 from audit_lib.pipeline.meter_corrections import METER_TARGETS
 from audit_lib.pipeline.steps import calibration_ratios
 
