@@ -44,7 +44,7 @@ def test_rh02_plan_is_confirmed_by_the_what_if_planner(park):
                             spacing_m=0.02, uncertainty=audit.findings.uncertainty)
     result = planner.update(**plan.settings)
     assert [c.id for c in result.checks] == [c.id for c in plan.checks_after]
-    for got, want in zip(result.checks, plan.checks_after):
+    for got, want in zip(result.checks, plan.checks_after, strict=True):
         assert got.state == want.state, got.id
         if want.value is not None:
             assert got.value == pytest.approx(want.value, rel=1e-9), got.id
