@@ -145,7 +145,7 @@ def test_parameters_are_checked(small):
         open_enclosure(SMALL, "nope")
     with pytest.raises(InputError, match="map spacing 5 m is outside"):
         open_enclosure(SMALL, spacing_m=5)
-    with pytest.raises(InputError, match="audit date '2026-13-01' is not a date"):
+    with pytest.raises(InputError, match="audit_date: '2026-13-01' is not a date"):
         choose_audit_date(small, "2026-13-01")
     assert choose_audit_date(small, "2026-01-02") == dt.date(2026, 1, 2)
     assert choose_audit_date(small) == max(small.records.site.audit_dates)

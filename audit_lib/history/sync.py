@@ -27,9 +27,16 @@ from audit_lib.history import store
 from audit_lib.site.folder import Site
 
 
-def site_history_path(site: Site) -> Path:
-    """The history database of a site folder: ``SITE/history.sqlite``."""
-    return site.root / store.DEFAULT_DB_NAME
+def site_history_path(site: Site | str | PathLike) -> Path:
+    """The history database of a site: ``SITE/history.sqlite`` (the one place that says so).
+
+    Parameters
+    ----------
+    site : audit_lib.site.folder.Site or str or PathLike
+        A loaded site or its folder.
+    """
+    root = site.root if isinstance(site, Site) else Path(site)
+    return root / store.DEFAULT_DB_NAME
 
 
 def sync_site_history(site: Site, db_path: str | PathLike | None = None

@@ -43,7 +43,9 @@ from audit_lib.pipeline.forecast import lamp_forecasts, site_lamp_installs
 from audit_lib.pipeline.uncertainty import audit_uncertainty
 from audit_lib.scene.maps import compute_maps, point_values, statistics_table
 from audit_lib.site.checks import calibration_warnings
+from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site
+from audit_lib.site.template import placeholder_notes
 
 #: Grid spacing of the maps unless asked otherwise [m].
 DEFAULT_SPACING_M = 0.02
@@ -160,12 +162,7 @@ def choose_audit_date(site, audit_date=None) -> dt.date:
         ISO date or date.
     """
     if audit_date:
-        try:
-            return audit_date if isinstance(audit_date, dt.date) else \
-                dt.date.fromisoformat(str(audit_date))
-        except ValueError:
-            raise InputError(f"audit date {audit_date!r} is not a date", field="audit_date",
-                             hint="write it as YYYY-MM-DD") from None
+        return parse_date(audit_date, field="audit_date")
     dates = list(site.records.site.audit_dates)
     if dates:
         return max(dates)
@@ -274,6 +271,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
         points["modelled_uvi"] = points["uvi"] * calibration
     notes = [text[0].upper() + text[1:] + "." for text in
              calibration_warnings(site.readings_of(enclosure_id), site.records)]
+    notes += placeholder_notes(site.records, site.root)
     notes.append(f"Model scaled by {calibration:.2f} to match the UV Index readings of {day}."
                  if calibration != 1.0 else
                  "No UV Index readings at named positions on the audit day: the model shows "

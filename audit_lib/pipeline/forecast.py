@@ -9,30 +9,27 @@ falls below the lower end of the enclosure's zone range. The physics lives in
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 from os import PathLike
 from pathlib import Path
 
 import pandas as pd
 
-from audit_lib.errors import InputError, InputErrors
+from audit_lib.errors import InputErrors
 from audit_lib.history import decay
 from audit_lib.history import store as history
+from audit_lib.history.sync import site_history_path, sync_site_history
 from audit_lib.judge.targets import read_zone_table, species_targets
 from audit_lib.light.meters import correct_readings
 from audit_lib.pipeline.meter_corrections import site_meter_corrections
 from audit_lib.site.checks import readings_problems
-from audit_lib.site.folder import load_site
+from audit_lib.site.folder import Site, load_site
 from audit_lib.site.readings import read_readings, readings_files
 
 #: Annual mean lamp hours per day assumed for a schedule that follows natural day length [h].
 #: Averaged over a year, day length is close to 12 h at any latitude (common practice).
 NATURAL_DAY_HOURS = 12.0
-
-
-def default_db_path(site_path: str | PathLike) -> Path:
-    """The history database of a site folder: ``SITE/history.sqlite``."""
-    return Path(site_path) / history.DEFAULT_DB_NAME
 
 
 def _clock_h(text: str) -> float:
@@ -153,13 +150,10 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
         One per file, in order.
     """
     site = load_site(site_path, today=today)
-    db_path = default_db_path(site_path) if db_path is None else Path(db_path)
+    db_path = site_history_path(site) if db_path is None else Path(db_path)
     files = [Path(f) for f in files] or readings_files(Path(site_path) / "readings")
     tables = [read_readings(file) for file in files]  # every file parsed before any import
     if files:
-        import datetime as dt
-
-
         day = today or dt.datetime.now(dt.timezone.utc).date()
         problems = [p for t in tables
                     for p in readings_problems(t, site.records, Path(site_path), day)]
@@ -170,19 +164,29 @@ def import_site_readings(site_path: str | PathLike, files=(), *, db_path=None, t
             for file, table in zip(files, tables, strict=True)]
 
 
-def zone_of_enclosure(site, enclosure) -> int | None:
-    """Highest Ferguson zone among an enclosure's species (site table over library table)."""
-    species = species_targets(site.records.species)
+def zone_of_enclosure(site, enclosure, species=None) -> int | None:
+    """Highest Ferguson zone among an enclosure's species (site table over library table).
+
+    ``species`` is :func:`species_targets` of the site when the caller has it already.
+    """
+    species = species_targets(site.records.species) if species is None else species
     found = [species[s].zone for s in enclosure.species if s in species]
     return max(found) if found else None
 
 
-def basking_uvi_targets(site) -> dict[str, float]:
+def basking_uvi_targets(site, enclosure_ids=None) -> dict[str, float]:
     """Lowest acceptable basking UV Index per enclosure.
 
     That is the lower end of the zone's maximum-UVI range (Ferguson et al. 2010, Zoo
     Biology 29:317; :func:`audit_lib.judge.targets.read_zone_table`, see the status of its values
     there), for the highest zone among the enclosure's species.
+
+    Parameters
+    ----------
+    site : audit_lib.site.folder.Site
+        A loaded site.
+    enclosure_ids : iterable of str, optional
+        Only these enclosures (all by default).
 
     Returns
     -------
@@ -190,9 +194,13 @@ def basking_uvi_targets(site) -> dict[str, float]:
         Enclosure id -> UV Index [-]; enclosures with no known species zone are left out.
     """
     zones = read_zone_table()
+    species = species_targets(site.records.species)
+    wanted = None if enclosure_ids is None else set(enclosure_ids)
     targets = {}
     for enclosure in site.records.enclosures:
-        zone = zone_of_enclosure(site, enclosure)
+        if wanted is not None and enclosure.id not in wanted:
+            continue
+        zone = zone_of_enclosure(site, enclosure, species)
         if zone is not None:
             targets[enclosure.id] = zones[zone].max_uvi_low
     return targets
@@ -206,9 +214,12 @@ def meter_corrected(site, readings: pd.DataFrame) -> tuple[pd.DataFrame, set]:
     F* x raw; other readings are kept raw. Returns the readings and the set of
     ``(enclosure, lamp)`` whose readings were corrected.
     """
+    if readings.empty:
+        return readings, set()
     factors = {(r.meter, r.enclosure, r.lamp): r.correction_factor
-               for r in site_meter_corrections(site).itertuples(index=False)}
-    if not factors or readings.empty:
+               for r in site_meter_corrections(site, set(readings["enclosure"]))
+               .itertuples(index=False)}
+    if not factors:
         return readings, set()
     fixed = correct_readings(readings, factors)
     use = fixed["value_si_corrected"].notna()
@@ -247,7 +258,9 @@ def lamp_forecasts(site, readings: pd.DataFrame, installs: pd.DataFrame, *, toda
         :func:`audit_lib.history.decay.schedule_table` columns plus ``age_days`` and
         ``meter_corrected``; the analyses of the lamps with readings.
     """
-    thresholds = basking_uvi_targets(site) if target_uvi is None else float(target_uvi)
+    enclosures = set(installs["enclosure"]) | set(readings["enclosure"])
+    thresholds = basking_uvi_targets(site, enclosures) if target_uvi is None \
+        else float(target_uvi)
     corrected_lamps: set = set()
     if correct_meters:
         readings, corrected_lamps = meter_corrected(site, readings)
@@ -260,20 +273,22 @@ def lamp_forecasts(site, readings: pd.DataFrame, installs: pd.DataFrame, *, toda
     return table, [d for _, d in pairs if len(d.points)]
 
 
-def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=None,
+def site_replacement_schedule(site, *, db_path=None, today=None,
                               target_uvi: float | None = None,
                               correct_meters: bool = True) -> pd.DataFrame:
     """Replacement schedule of every lamp of a site, from its history database.
 
-    The history's readings and installs go through :func:`lamp_forecasts`, the forecast the
+    The database is first brought up to date from the site's readings folder
+    (:func:`audit_lib.history.sync.sync_site_history`, idempotent) and its lamp installs;
+    its readings and installs then go through :func:`lamp_forecasts`, the forecast the
     enclosure reports use.
 
     Parameters
     ----------
-    site_path : str or PathLike
-        The site folder (validated).
+    site : audit_lib.site.folder.Site or str or PathLike
+        A loaded site (loaded once by the caller), or its folder (then loaded here).
     db_path : str or PathLike, optional
-        The history database; default ``SITE/history.sqlite``.
+        The history database; default :func:`audit_lib.history.sync.site_history_path`.
     today : datetime.date, optional
         Day of the schedule (default: today).
     target_uvi : float, optional
@@ -287,11 +302,10 @@ def site_replacement_schedule(site_path: str | PathLike, *, db_path=None, today=
     pandas.DataFrame
         See :func:`lamp_forecasts`.
     """
-    site = load_site(site_path, today=today)
-    db_path = default_db_path(site_path) if db_path is None else Path(db_path)
-    if not Path(db_path).is_file():
-        raise InputError("no history database yet", path=db_path,
-                         hint=f"run 'light-audit import {site_path}' first")
+    if not isinstance(site, Site):
+        site = load_site(site, today=today)
+    db_path = site_history_path(site) if db_path is None else Path(db_path)
+    sync_site_history(site, db_path)  # readings folder -> database
     sync_lamp_installs(site, db_path)
     today = pd.Timestamp.today().normalize() if today is None else today
     table, _ = lamp_forecasts(site, history.read_all_readings(db_path),

@@ -29,13 +29,16 @@ from audit_lib.pipeline.assemble import model_spectrum
 METER_TARGETS = {"uv_index_meter": "erythema"}
 
 
-def site_meter_corrections(site) -> pd.DataFrame:
+def site_meter_corrections(site, enclosure_ids=None) -> pd.DataFrame:
     """Correction factor of each (meter, enclosure, lamp) pair of a site.
 
     Parameters
     ----------
     site : audit_lib.site.folder.Site
         A loaded site.
+    enclosure_ids : iterable of str, optional
+        Only these enclosures (all by default): one enclosure's report needs its own lamps,
+        not the whole site's, so a batch stays linear in the number of enclosures.
 
     Returns
     -------
@@ -48,13 +51,15 @@ def site_meter_corrections(site) -> pd.DataFrame:
                "mismatch_factor", "calibration", "target"]
     meters = [m for m in site.records.meters
               if m.spectral_response and m.type in METER_TARGETS]
+    wanted = None if enclosure_ids is None else set(enclosure_ids)
+    enclosures = [e for e in site.records.enclosures if wanted is None or e.id in wanted]
     rows = []
     if meters:
         sun = reference_sun()
         spectra = {}
         for meter in meters:
             response = read_meter_response(site.path_of(meter.spectral_response), name=meter.id)
-            for enclosure in site.records.enclosures:
+            for enclosure in enclosures:
                 for lamp in enclosure.lamps:
                     if lamp.model not in spectra:
                         spectra[lamp.model] = model_spectrum(site, site.lamp_model(lamp.model))

@@ -2,7 +2,7 @@
 
 Each function takes an :class:`audit_lib.pipeline.audit.EnclosureAudit` and returns a matplotlib
 figure drawn from the record's numbers, in the project's style (:mod:`audit_lib.report.style`:
-Okabe-Ito colours, the cividis colour map, constrained layout).
+Okabe-Ito colours, the cividis colour map, fixed margins).
 """
 
 from __future__ import annotations
@@ -15,6 +15,7 @@ from audit_lib.report.daily import plot_daily_uvi, plot_monthly_doses
 from audit_lib.report.decay import plot_lamp_decay
 from audit_lib.report.maps import MAP_LABELS, plot_coverage_distribution, plot_surface_map
 from audit_lib.report.spectrum import plot_spectrum
+from audit_lib.report.style import place_axes
 
 
 def plot_maps(audit, quantity: str = "uvi"):
@@ -37,7 +38,9 @@ def plot_maps(audit, quantity: str = "uvi"):
     cols = min(2, len(maps))
     rows = math.ceil(len(maps) / cols)
     fig, axes = plt.subplots(rows, cols, figsize=(4.4 * cols, 3.2 * rows), dpi=96,
-                             layout="constrained", squeeze=False)
+                             squeeze=False)
+    # fixed margins [in]: tick and axis labels left and below, titles above, the bar right
+    place_axes(fig, 0.6, 0.5, 1.05, 0.35, wspace=0.3, hspace=0.35)
     vmax = max(float(np.nanmax(m.values[quantity])) for m in maps) or 1.0
     uvi_range = (audit.zone.max_uvi_low, audit.zone.max_uvi_high) \
         if quantity == "uvi" and audit.zone is not None else None
@@ -47,8 +50,10 @@ def plot_maps(audit, quantity: str = "uvi"):
         ax.set_visible(False)
     # one bar for the shared scale (one per panel repeated it and cost a third of the drawing)
     used = list(axes.flat)[:len(maps)]
-    bar = fig.colorbar(used[0].images[0], ax=used, shrink=0.9 if rows > 1 else 1.0,
-                       aspect=25 * rows)
+    width, height = fig.get_size_inches()
+    cax = fig.add_axes([1.0 - 0.85 / width, 0.5 / height, 0.12 / width,
+                        1.0 - 0.85 / height])
+    bar = fig.colorbar(used[0].images[0], cax=cax)
     bar.set_label(MAP_LABELS.get(quantity, quantity))
     return fig
 
@@ -92,6 +97,40 @@ def plot_failure_study(audit):
 def plot_lamp_spectra(audit):
     """Each lamp model's spectrum with bands and action spectra (one figure per model)."""
     return [plot_spectrum(spectrum) for spectrum in audit.lamp_spectra.values()]
+
+
+#: PNG of each lamp spectrum figure drawn in this process, by the spectrum's content.
+_SPECTRUM_PNGS: dict[str, bytes] = {}
+
+
+def lamp_spectrum_images(audit) -> list:
+    """:func:`plot_lamp_spectra` as PNG images, each drawn once per process.
+
+    A lamp model's spectrum is the same in every enclosure that uses it, so a batch worker
+    draws each model's figure once and reuses the PNG (keyed by a hash of the spectrum's
+    name and values, so a changed spectrum is drawn again).
+
+    Returns
+    -------
+    list of IPython.display.Image
+    """
+    import hashlib
+
+    import matplotlib.pyplot as plt
+    from IPython.display import Image
+
+    images = []
+    for spectrum in audit.lamp_spectra.values():
+        digest = hashlib.sha256(repr(spectrum.name).encode())
+        digest.update(np.ascontiguousarray(spectrum.wavelength_nm).tobytes())
+        digest.update(np.ascontiguousarray(spectrum.irradiance_w_m2_nm).tobytes())
+        key = digest.hexdigest()
+        if key not in _SPECTRUM_PNGS:
+            fig = plot_spectrum(spectrum)
+            _SPECTRUM_PNGS[key] = png_bytes(fig)
+            plt.close(fig)
+        images.append(Image(data=_SPECTRUM_PNGS[key], format="png"))
+    return images
 
 
 def png_bytes(fig) -> bytes | None:

@@ -62,7 +62,7 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
     matplotlib.axes.Axes
     """
     if ax is None:
-        _, ax = new_figure(9.0, 4.0)
+        _, ax = new_figure(9.0, 4.0, right_in=3.1)  # the legend sits beside the axes
     if hasattr(curves, "columns"):  # a DataFrame: one curve per column
         curves = {str(c): curves[c] for c in curves.columns}
     elif not isinstance(curves, dict):
@@ -121,8 +121,8 @@ def plot_monthly_doses(table, *, ax=None, title=""):
     matplotlib.axes.Axes
         The dose axes (the hours axis is its twin).
     """
-    if ax is None:
-        _, ax = new_figure(9.0, 4.0)
+    if ax is None:  # a twin axis and the legend beside the axes
+        _, ax = new_figure(9.0, 4.0, right_in=2.7)
     months = np.asarray(table.index, dtype=int)
     ax.bar(months, table["sed"], color=PALETTE["blue"], width=0.6, label="enclosure [SED/day]")
     if "sun_clear_sky_sed" in table:

@@ -100,7 +100,8 @@ def plot_surface_map(
     if ax is None:
         s = surface_map.surface
         aspect = (s.y_max_m - s.y_min_m) / (s.x_max_m - s.x_min_m)
-        fig, ax = new_figure(7.0, max(2.6, min(6.0, 5.6 * aspect + 1.0)))
+        fig, ax = new_figure(7.0, max(2.6, min(6.0, 5.6 * aspect + 1.0)),
+                             right_in=0.3 if not colorbar else 1.3)
     else:
         fig = ax.figure
     m = surface_map

@@ -41,7 +41,7 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
     matplotlib.figure.Figure
     """
     if ax is None:
-        fig, ax = new_figure()
+        fig, ax = new_figure(right_in=0.95)  # twin axis of the weights
     else:
         fig = ax.figure
     wl = spectrum.wavelength_nm

@@ -14,20 +14,23 @@ import shlex
 import subprocess
 import sys
 import warnings
+from pathlib import Path
 
 from audit_lib import __version__
 from audit_lib.errors import AuditError, AuditWarning, InputError, InputErrors
-from audit_lib.history.sync import sync_site_history
 from audit_lib.light.metrics import format_metrics_table, spectrum_metrics
 from audit_lib.light.spectra import read_spectrum
 from audit_lib.light.sun import sun_summary
+from audit_lib.pipeline.field import expected_readings
 from audit_lib.pipeline.forecast import (
     format_schedule,
     import_site_readings,
     site_replacement_schedule,
 )
+from audit_lib.report.field_sheet import field_sheet_html, readings_template_csv
 from audit_lib.run.batch import run_batch, run_scenario
 from audit_lib.run.notebooks import jupyterlab_command, register_kernel, write_what_if_workbook
+from audit_lib.run.pdf import find_chromium, html_to_pdf
 from audit_lib.site.dates import parse_date
 from audit_lib.site.folder import load_site, new_site, summarise_site
 from audit_lib.site.schema import parse_quantity
@@ -207,12 +210,45 @@ def _add_forecast_parser(subparsers) -> None:
 
 
 def _run_forecast(args) -> int:
-    sync_site_history(load_site(args.site, today=args.date), args.db)  # readings folder -> DB
-    table = site_replacement_schedule(args.site, db_path=args.db, today=args.date,
+    site = load_site(args.site, today=args.date)  # once: the schedule syncs its history
+    table = site_replacement_schedule(site, db_path=args.db, today=args.date,
                                       target_uvi=args.target_uvi, correct_meters=not args.raw)
     print(format_schedule(table))
     if args.csv:
         table.to_csv(args.csv, index=False, date_format="%Y-%m-%d")
+    return 0
+
+
+def _add_field_sheet_parser(subparsers) -> None:
+    p = subparsers.add_parser(
+        "field-sheet",
+        help="printable sheet of positions and expected UV Index for the audit day, and a "
+        "readings template to fill in",
+    )
+    p.add_argument("site", help="the site folder (holding site.toml)")
+    p.add_argument("--out", required=True, metavar="DIR", help="folder for the sheet and template")
+    p.add_argument("--date", type=_date_option,
+                   help="day of the readings, YYYY-MM-DD (default: today)")
+    p.add_argument("--pdf", action="store_true", help="also print the sheet to PDF (Chromium)")
+    p.set_defaults(handler=_run_field_sheet)
+
+
+def _run_field_sheet(args) -> int:
+    if args.pdf:
+        find_chromium()  # a clear exit 2 before any work when Chromium is missing
+    sheet = expected_readings(load_site(args.site), args.date)
+    out = Path(args.out)
+    out.mkdir(parents=True, exist_ok=True)
+    stem = sheet.date.isoformat()
+    html_path = out / f"field-sheet-{stem}.html"
+    csv_path = out / f"readings-template-{stem}.csv"
+    html_path.write_text(field_sheet_html(sheet), encoding="utf-8")
+    csv_path.write_text(readings_template_csv(sheet), encoding="utf-8")
+    written = [html_path, csv_path]
+    if args.pdf:
+        written.insert(1, html_to_pdf(html_path, out / f"field-sheet-{stem}.pdf"))
+    for path in written:
+        print(path)
     return 0
 
 
@@ -359,7 +395,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"%(prog)s {__version__}")
     subparsers = parser.add_subparsers(dest="command", required=True)
     for add in (_add_spectrum_parser, _add_check_parser, _add_new_site_parser, _add_run_parser,
-                _add_import_parser, _add_forecast_parser, _add_sun_parser,
+                _add_import_parser, _add_forecast_parser, _add_field_sheet_parser,
+                _add_sun_parser,
                 _add_fit_emitter_parser, _add_what_if_parser):
         add(subparsers)
     return parser

@@ -194,3 +194,23 @@ def placeholder_problems(site: SiteFile, root: Path, path: Path, lines: dict[str
         found.append(InputError("the starter's example readings, unchanged", path=readings,
                                 hint="replace them with your own readings, or delete the file"))
     return found
+
+
+def placeholder_notes(site: SiteFile, root: Path) -> list[str]:
+    """The placeholder warnings of :func:`placeholder_problems` as report notes.
+
+    One sentence each, naming the key (or the file, relative to the site folder) without
+    machine paths, so that a report made from an unedited starter says so.
+
+    Parameters
+    ----------
+    site : SiteFile
+        The validated records.
+    root : Path
+        The site folder.
+    """
+    notes = []
+    for problem in placeholder_problems(site, root, root / "site.toml", {}):
+        where = problem.field or Path(problem.path).relative_to(root).as_posix()
+        notes.append(f"Site not finished, {where}: {problem.message} ({problem.hint}).")
+    return notes
