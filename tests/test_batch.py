@@ -91,7 +91,7 @@ def test_results_json_is_strict_json(tmp_path):
     assert set(first) >= {"id", "verdict", "report", "checks", "error"}
     assert set(first["checks"][0]) == {"check_id", "name", "species", "value", "unit",
                                        "target_low", "target_high", "state", "reason",
-                                       "basis", "source"}
+                                       "basis", "source", "value_low", "value_high"}
     assert first["checks"][0]["check_id"] == "basking_uvi_max"
     assert first["lamps"] == [] and first["actions"] == [] and "audit_date" in first
     assert first["checks"][1]["value"] is None and first["checks"][1]["target_high"] is None

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.judge.targets import WITHIN
+from audit_lib.judge.targets import BORDERLINE, WITHIN
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
 
@@ -43,7 +43,8 @@ def test_park_verdicts_match_the_planted_problems():
     audit_lib.judge.targets (ICNIRP 2004 actinic limit; refuge threshold common practice)."""
     audits = _audits(SAMPLES / "kestrel-moor-wildlife-park")
     for enclosure_id, audit in audits.items():
-        failing = {c.name for c in audit.checks if c.state != WITHIN}
+        # surely out of range; a borderline check (interval across a limit) is not planted
+        failing = {c.name for c in audit.checks if c.state not in (WITHIN, BORDERLINE)}
         if enclosure_id in PLANTED:
             assert PLANTED[enclosure_id] in failing, (enclosure_id, failing)
         else:
@@ -59,7 +60,8 @@ def test_client_site_meets_targets_after_the_tube_change():
     range 0-0.7 (Ferguson et al. 2010, from memory)."""
     audits = _audits(SAMPLES / "ashdown-private-collection")
     for enclosure_id, audit in audits.items():
-        failing = {c.id for c in audit.checks if c.state != WITHIN}
+        # surely out of range; a borderline check (interval across a limit) is not planted
+        failing = {c.id for c in audit.checks if c.state not in (WITHIN, BORDERLINE)}
         if enclosure_id == "gecko-terrarium":
             assert failing == {"used_area_uvi_max"}, failing
         else:

@@ -442,3 +442,86 @@ def check_keeper_limit(
             c, reason=f"No actinic UV reaches the keeper{where}, so there is no time limit."
         )
     return c
+
+
+# --- the figure's uncertainty interval ----------------------------------------------------
+
+
+def classify_interval(value, low, high, target_low: float, target_high: float) -> str:
+    """State of a figure with its uncertainty interval against an inclusive target range.
+
+    The borderline rule: *within*, *below* or *above range* only when the whole interval
+    ``[low, high]`` lies on one side (limits inclusive, as in :func:`classify`);
+    :data:`BORDERLINE` exactly when the interval crosses a limit, whichever side the value
+    itself is on. Without an interval (``low`` or ``high`` None) the value alone decides.
+
+    Parameters
+    ----------
+    value : float or None
+        The figure (None or NaN: not enough data) [unit].
+    low, high : float or None
+        Its interval, ``low <= value <= high`` [unit].
+    target_low, target_high : float
+        Inclusive target range [unit].
+
+    Returns
+    -------
+    str
+        One of :data:`STATES`.
+    """
+    state = classify(value, target_low, target_high)
+    if state == NO_DATA or low is None or high is None:
+        return state
+    if high < target_low:
+        return BELOW
+    if low > target_high:
+        return ABOVE
+    if low >= target_low and high <= target_high:
+        return WITHIN
+    return BORDERLINE
+
+
+def _sig(x: float) -> str:
+    if math.isinf(x):
+        return "no limit"
+    return f"{x:.3g}"
+
+
+def with_interval(check: Check, low, high) -> Check:
+    """The check with its 90 % interval set and its state judged by :func:`classify_interval`.
+
+    The value is never moved. When the interval changes the state, the reason is rewritten
+    in one sentence naming the interval and the limit it crosses; otherwise the reason stays.
+
+    Parameters
+    ----------
+    check : Check
+        A check made on the value alone.
+    low, high : float or None
+        The figure's 90 % interval; must contain the value [``check.unit``].
+
+    Raises
+    ------
+    ValueError
+        The interval does not contain the value.
+    """
+    if check.value is None or low is None or high is None:
+        return check
+    low, high = float(low), float(high)
+    if not low <= check.value <= high:
+        raise ValueError(f"interval {low:g}-{high:g} of {check.id!r} does not contain its "
+                         f"value {check.value:g}")
+    state = classify_interval(check.value, low, high, check.target_low, check.target_high)
+    out = replace(check, value_low=low, value_high=high, state=state)
+    if state == check.state:
+        return out
+    unit = f" {check.unit}" if check.unit not in ("", "-", "UVI") else ""
+    target = (f"{_sig(check.target_low)}-{_sig(check.target_high)}"
+              if not math.isinf(check.target_high) else f"of at least {_sig(check.target_low)}")
+    crossed = [x for x, hit in ((check.target_low, low < check.target_low <= high),
+                                (check.target_high, low <= check.target_high < high)) if hit]
+    limit = " and ".join(_sig(x) for x in crossed) or _sig(check.target_low)
+    return replace(out, reason=(
+        f"The {check.name} is {_sig(check.value)}{unit} with a 90 % interval of "
+        f"{_sig(low)}-{_sig(high)}{unit}, which crosses the limit {limit} of the target "
+        f"{target}{unit}: it may lie on either side."))

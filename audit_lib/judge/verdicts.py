@@ -21,6 +21,7 @@ from audit_lib.judge.targets import (
     ABOVE,
     BASKING_UVI_MAX,
     BELOW,
+    BORDERLINE,
     COMMON_PRACTICE,
     KEEPER_EXPOSURE_TIME,
     KEEPER_TIME_S,
@@ -42,10 +43,14 @@ from audit_lib.judge.targets import (
     check_refuge,
     check_short_wave_share,
     check_used_area_max,
+    with_interval,
 )
 
 MEETS, ATTENTION = "meets targets", "needs attention"
-OVERALL_STATES = (MEETS, ATTENTION, NO_DATA)
+#: Overall states. ``BORDERLINE`` (the checks' word): no check is surely out of range but at
+#: least one check's 90 % interval crosses a limit, so the enclosure may or may not meet
+#: its targets; it is counted apart from both "meets targets" and "needs attention".
+OVERALL_STATES = (MEETS, ATTENTION, BORDERLINE, NO_DATA)
 
 
 @dataclass(frozen=True)
@@ -121,8 +126,9 @@ class Verdict:
 def overall_state(checks) -> tuple[str, str]:
     """Overall state and reason from a set of checks.
 
-    "needs attention" if any check is out of range; "not enough data" if the basking maximum
-    is missing; otherwise "meets targets", naming any check that lacked data.
+    "needs attention" if any check is out of range (its whole interval outside); "not enough
+    data" if the basking maximum is missing; "borderline" if any check is borderline (its
+    interval crosses a limit); otherwise "meets targets", naming any check that lacked data.
     """
     out = [c for c in checks if c.state in (BELOW, ABOVE)]
     missing = [c for c in checks if c.state == NO_DATA]
@@ -133,6 +139,12 @@ def overall_state(checks) -> tuple[str, str]:
         return NO_DATA, "The basking UV Index maximum is missing, so the zone cannot be judged."
     names = ", ".join(c.name for c in missing)
     extra = f" ({len(missing)} could not be made for lack of data: {names})" if missing else ""
+    close = [c for c in checks if c.state == BORDERLINE]
+    if close:
+        names = "; ".join(c.name for c in close)
+        return BORDERLINE, (f"No check is surely out of range, but {len(close)} of "
+                            f"{len(checks)} are borderline (the figure's 90 % interval crosses "
+                            f"a limit): {names}{extra}.")
     made = len(checks) - len(missing)
     lead = "The one check made is" if made == 1 else f"All {made} checks made are"
     return MEETS, f"{lead} within range{extra}."
@@ -328,6 +340,7 @@ def assess_enclosure(
     keeper_time_s: float = KEEPER_TIME_S,
     working_distance_m=None,
     used_area_max_uvi=None,
+    intervals=None,
     **action_inputs,
 ) -> Verdict:
     """Every check for one enclosure and species, the overall verdict and the actions.
@@ -361,6 +374,9 @@ def assess_enclosure(
         Highest UV Index over the area the animal uses: judged instead of the basking
         maximum for a species given UV as a whole-enclosure gradient
         (:data:`audit_lib.judge.targets.PROVISION_CHECKS`) [-].
+    intervals : dict of str to (float, float), optional
+        Check id to the figure's 90 % interval (:func:`audit_lib.judge.targets.with_interval`
+        sets it and applies the borderline rule) [the check's unit].
     **action_inputs
         Passed to :func:`recommend_actions` (``height_search``, ``screen_transmission``, ...).
 
@@ -384,6 +400,8 @@ def assess_enclosure(
             keeper_limit_s, working_time_s=keeper_time_s, working_distance_m=working_distance_m
         ),
     )
+    if intervals:
+        checks = tuple(with_interval(c, *intervals.get(c.id, (None, None))) for c in checks)
     state, reason = overall_state(checks)
     actions = tuple(recommend_actions(checks, **action_inputs))
     notes = []
@@ -432,10 +450,15 @@ def recommendation(verdicts) -> str:
             seen.add(a.text)
             actions.append(a)
     out = [c for c in checks if c.state in (BELOW, ABOVE)]
-    if not out and not actions:
+    close = [c for c in checks if c.state == BORDERLINE]
+    if not out and not actions and not close:
         return NO_CHANGE
     parts = [a.text for a in actions]
     left = unanswered_sentence(checks, actions)
     if left:
         parts.append(left)
+    if close:
+        names = "; ".join(c.name for c in close)
+        parts.append(f"Too close to call: {names}. Measure again with a recently calibrated "
+                     "meter, or follow the plan to gain margin.")
     return " ".join(parts)

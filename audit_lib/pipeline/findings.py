@@ -25,6 +25,12 @@ audit day's readings, the planner to the plan's output share. Everything after t
 * Short-wave UVB share: highest over the lamp models' spectra (the report's spectrum table).
 * Checks per species against its zone, the overall verdict, and the actions with the one
   bounded height search (:func:`audit_lib.scene.inverse.height_for_target`).
+* Intervals (given an :class:`audit_lib.judge.uncertainty.OutputUncertainty`): the scale
+  factor's 90 % interval carried through each figure's own map, vectorised: basking maximum
+  and animal mean times the factor's ends (linear in output), the refuge share recounted on
+  the floor map at both ends, the keeper limit inversely with the rated output; light hours
+  and the short-wave share do not depend on lamp output (zero width). Overall: "needs
+  attention" beats "borderline" beats "meets targets" (:mod:`audit_lib.judge.verdicts`).
 
 Notes: :func:`collect_notes` turns the library's warnings raised on the way into notes, in
 one place for both entry points; :func:`find_figures` adds its own (unknown species,
@@ -48,6 +54,12 @@ from audit_lib.day.dose import (
 from audit_lib.day.photoperiod import lit_hours_of_table
 from audit_lib.errors import AuditWarning
 from audit_lib.judge import targets
+from audit_lib.judge.uncertainty import (
+    OutputUncertainty,
+    inverse_interval,
+    linear_interval,
+    share_at_or_below_interval,
+)
 from audit_lib.judge.verdicts import ATTENTION, MEETS, assess_enclosure, recommendation
 from audit_lib.light.metrics import sun_reference
 from audit_lib.pipeline.steps import budget_places, keeper_limit, per_lamp_values
@@ -101,6 +113,10 @@ class Findings:
         Overall state (the worst of the species' verdicts) and its reason.
     notes : list of str
         Caveats the views must show.
+    uncertainty : OutputUncertainty or None
+        The scale factor's uncertainty behind the checks' intervals (None: no intervals).
+    intervals : dict of str to (float, float)
+        Check id to the figure's 90 % interval [the check's unit].
     """
 
     species: list
@@ -126,6 +142,8 @@ class Findings:
     verdict: str = targets.NO_DATA
     reason: str = ""
     notes: list = field(default_factory=list)
+    uncertainty: OutputUncertainty | None = None
+    intervals: dict = field(default_factory=dict)
 
     @property
     def checks(self) -> list:
@@ -203,7 +221,7 @@ def short_uvb_fraction(spectra_metrics: dict) -> float | None:
 def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles,
                  spectra_metrics, audit_date, spacing_m, main_lamp=None,
                  replacement_date=None, unknown_species=(), cache=None,
-                 cache_key=None, target_settings=None) -> Findings:
+                 cache_key=None, target_settings=None, uncertainty=None) -> Findings:
     """From one enclosure's UV Index maps to its figures, checks, verdict and actions.
 
     Parameters
@@ -242,6 +260,9 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     target_settings : TargetSettings, optional
         The site's targets (:meth:`TargetSettings.from_record` of its ``[targets]`` table);
         the project defaults by default.
+    uncertainty : OutputUncertainty, optional
+        Uncertainty of ``scale``: each check gets its 90 % interval and the borderline rule
+        (none without it).
 
     Returns
     -------
@@ -265,7 +286,7 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     found = Findings(species=list(species), zone=zone, basking_surface=surface,
                      peak_point_m=peak, basking_max_uvi=basking_max, refuge_share=refuge,
                      uvi_at_peak=uvi_peak, vitamin_d_at_peak=vitd_peak, profiles=profiles,
-                     target_settings=settings, notes=notes)
+                     target_settings=settings, notes=notes, uncertainty=uncertainty)
     if any(s.uv_provision == "gradient" for s in species):
         found.used_area_place, found.used_area_max_uvi = _used_area_max(
             record, scene, maps, failed, scale)
@@ -279,6 +300,8 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     found.keeper_limit_s = cache("keeper", (cache_key, failed),
                                  lambda: keeper_limit(scene, record, failed))
     found.short_uvb_fraction = short_uvb_fraction(spectra_metrics)
+    if uncertainty is not None:
+        found.intervals = figure_intervals(found, maps["floor"].values["uvi"], uncertainty)
     _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
            replacement_date, cache, cache_key, maps)
     return found
@@ -304,6 +327,22 @@ def _used_area_max(record, scene, maps, failed, scale) -> tuple[str, float]:
         return "", None
     place = max(values, key=values.get)
     return place, values[place]
+def figure_intervals(found: Findings, floor_uvi, uncertainty: OutputUncertainty) -> dict:
+    """Check id to the 90 % interval of its figure (see the module docstring) [unit]."""
+    factors = uncertainty.scale_factors()
+    out = {targets.BASKING_UVI_MAX: linear_interval(found.basking_max_uvi, factors),
+           targets.REFUGE_FLOOR_SHARE: share_at_or_below_interval(
+               floor_uvi, targets.REFUGE_UVI_MAX, factors)}
+    if found.mean_uvi is not None:
+        out[targets.ANIMAL_UVI_MEAN] = linear_interval(found.mean_uvi, factors)
+    if found.light_hours is not None:
+        out[targets.LIGHT_HOURS] = (found.light_hours, found.light_hours)
+    if found.short_uvb_fraction is not None:
+        out[targets.SHORT_UVB_SHARE] = (found.short_uvb_fraction, found.short_uvb_fraction)
+    if found.keeper_limit_s is not None:  # the check's unit is minutes
+        low, high = inverse_interval(found.keeper_limit_s / 60.0, uncertainty.rated_factors())
+        out[targets.KEEPER_EXPOSURE_TIME] = (low, high)
+    return out
 
 
 def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) -> None:
@@ -370,12 +409,13 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
         height_search=search_on(surface_of(s)),
         screen_transmission=min(screens) if screens else None,
         floor_area_m2=record.width_m * record.depth_m, replacement_date=replacement_date,
-        audit_date=audit_date, lamp=main.id if main else "") for s in found.species]
+        audit_date=audit_date, lamp=main.id if main else "", intervals=found.intervals)
+        for s in found.species]
     states = [v.state for v in found.verdicts]
     if ATTENTION in states:
         found.verdict = ATTENTION
-    elif states and all(s == MEETS for s in states):
-        found.verdict = MEETS
+    elif states and all(s in (MEETS, targets.BORDERLINE) for s in states):
+        found.verdict = targets.BORDERLINE if targets.BORDERLINE in states else MEETS
     else:
         found.verdict = targets.NO_DATA
     found.reason = (" ".join(v.reason for v in found.verdicts)
@@ -384,4 +424,5 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
         found.notes += [n for n in v.notes if n not in found.notes]
 
 
-__all__ = ["Findings", "collect_notes", "find_figures", "short_uvb_fraction"]
+__all__ = ["Findings", "collect_notes", "figure_intervals", "find_figures",
+           "short_uvb_fraction"]

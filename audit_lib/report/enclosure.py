@@ -18,8 +18,10 @@ import pandas as pd
 from audit_lib.judge.targets import FROM_MEMORY, KEEPER_EXPOSURE_TIME
 from audit_lib.judge.verdicts import unanswered_sentence
 from audit_lib.light.metrics import RISK_GROUPS
+from audit_lib.pipeline.plan import plan_entry
 from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.index_page import state_class
+from audit_lib.report.plan import borderline_note, interval_text
 
 #: MIME type of the report data (see :mod:`audit_lib.run.notebooks`).
 REPORT_DATA_MIMETYPE = "application/vnd.audit-lib.report+json"
@@ -69,13 +71,19 @@ def _iso(value) -> str | None:
     return pd.Timestamp(value).date().isoformat()
 
 
+def check_entry(c, species: str = "", name: str | None = None) -> dict:
+    """One check as ``results.json`` holds it (infinite limits and figures as null)."""
+    return {"check_id": c.id, "name": name or c.name, "species": species,
+            "value": _finite(c.value), "unit": c.unit,
+            "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
+            "state": c.state, "reason": c.reason, "basis": c.basis, "source": c.source,
+            "value_low": _finite(c.value_low), "value_high": _finite(c.value_high)}
+
+
 def check_entries(audit) -> list[dict]:
     """Every check as ``results.json`` holds it (stable ``check_id``; infinite limits as null)."""
     many = len(audit.verdicts) > 1
-    return [{"check_id": c.id, "name": f"{c.name} ({v.species})" if many else c.name,
-             "species": v.species, "value": _finite(c.value), "unit": c.unit,
-             "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
-             "state": c.state, "reason": c.reason, "basis": c.basis, "source": c.source}
+    return [check_entry(c, v.species, f"{c.name} ({v.species})" if many else c.name)
             for v in audit.verdicts for c in v.checks]
 
 
@@ -122,7 +130,8 @@ def enclosure_results(audit) -> dict:
             "zone": audit.zone.zone if audit.zone is not None else None,
             "verdict": audit.verdict, "reason": audit.reason,
             "recommendation": audit.recommendation, "checks": check_entries(audit),
-            "actions": action_entries(audit), "lamps": lamp_entries(audit)}
+            "actions": action_entries(audit), "lamps": lamp_entries(audit),
+            "plan": plan_entry(audit.plan, check_entry)}
 
 
 def report_data(audit) -> dict:
@@ -184,14 +193,17 @@ def checks_table(audit) -> HTMLBlock:
     rows = []
     for c in audit.checks:
         target = f"{_num(c.target_low)} – {_num(c.target_high)}"
-        rows.append(f"<tr><td>{escape(c.name)}</td><td class='num'>{_num(c.value)}</td>"
+        rows.append(f"<tr><td>{escape(c.name)}</td>"
+                    f"<td class='num'>{_num(c.value)}{escape(interval_text(c))}</td>"
                     f"<td>{escape(c.unit)}</td><td class='num'>{target}</td>"
                     f"<td>{_badge(c.state)}</td><td>{escape(c.reason)}</td>"
                     f"<td>{_basis_cell(c)}</td></tr>")
     return HTMLBlock(
         '<table class="checks"><thead><tr><th>Check</th><th class="num">Figure</th>'
         '<th>Unit</th><th class="num">Target</th><th>State</th><th>Reason</th>'
-        f"<th>Target rests on</th></tr></thead><tbody>{''.join(rows)}</tbody></table>")
+        f"<th>Target rests on</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
+        + (f"<p>{escape(borderline_note(audit.checks))}</p>" if borderline_note(audit.checks)
+           else ""))
 
 
 def _basis_cell(check) -> str:

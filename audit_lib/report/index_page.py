@@ -12,6 +12,7 @@ import re
 from html import escape
 from importlib.resources import files
 
+from audit_lib.judge.targets import BORDERLINE
 from audit_lib.report.cautions import CAUTIONS
 
 #: The report template's style sheet (package data ``audit_lib.templates``).
@@ -90,6 +91,7 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
     if overview is not None and overview.error:
         failed.append(overview)
     done = [o for o in outcomes if o.verdict is not None and not o.error]
+    borderline = [o for o in done if o.verdict == BORDERLINE]
     facts_html = "".join(f"<div><dt>{escape(str(k))}</dt><dd>{escape(str(v))}</dd></div>"
                          for k, v in facts)
     parts = [
@@ -107,6 +109,7 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
         '<div class="site-summary">',
         f"<div><strong>{len(outcomes)}</strong> enclosures</div>",
         f"<div><strong>{len(done)}</strong> audited</div>",
+        f"<div><strong>{len(borderline)}</strong> borderline</div>",
         f"<div><strong>{len(failed)}</strong> could not be audited</div></div>",
     ]
     if overview is not None and overview.report:

@@ -20,11 +20,12 @@ CSV_COLUMNS = ("enclosure", "enclosure_name", "verdict", "check", "check_id", "v
                "target_low", "target_high", "state", "reason", "error", "basis", "source")
 #: Keys of a check in ``results.json`` (docs/batch-reports.md).
 CHECK_KEYS = ("check_id", "name", "species", "value", "unit", "target_low", "target_high",
-              "state", "reason", "basis", "source")
+              "state", "reason", "basis", "source",
+              "value_low", "value_high")
 #: Keys of an enclosure entry beyond the outcome's own (from the workbook's results), with
 #: their value when the workbook gave none.
 RESULT_KEYS = {"audit_date": None, "zone": None, "reason": None, "recommendation": None,
-               "actions": [], "lamps": []}
+               "actions": [], "lamps": [], "plan": None}
 
 
 def _clean(value):

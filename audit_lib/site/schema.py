@@ -150,6 +150,9 @@ class Meter(Record):
     type: Literal["uv_index_meter", "uvb_meter", "uva_meter", "lux_meter", "spectroradiometer"]
     calibration_date: dt.date | None = None
     spectral_response: str | None = None
+    #: "± %" of a reading (its calibration certificate); None: the project default of the
+    #: meter type (audit_lib.judge.uncertainty.METER_UNCERTAINTY_PCT) [%].
+    uncertainty_pct: float | None = Field(default=None, gt=0, le=100)
     note: str = ""
 
 
