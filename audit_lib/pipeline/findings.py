@@ -327,12 +327,16 @@ def _used_area_max(record, scene, maps, failed, scale) -> tuple[str, float]:
         return "", None
     place = max(values, key=values.get)
     return place, values[place]
+
+
 def figure_intervals(found: Findings, floor_uvi, uncertainty: OutputUncertainty) -> dict:
     """Check id to the 90 % interval of its figure (see the module docstring) [unit]."""
     factors = uncertainty.scale_factors()
     out = {targets.BASKING_UVI_MAX: linear_interval(found.basking_max_uvi, factors),
            targets.REFUGE_FLOOR_SHARE: share_at_or_below_interval(
-               floor_uvi, targets.REFUGE_UVI_MAX, factors)}
+               floor_uvi, found.target_settings.refuge_uvi_max, factors)}
+    if found.used_area_max_uvi is not None:
+        out[targets.USED_AREA_UVI_MAX] = linear_interval(found.used_area_max_uvi, factors)
     if found.mean_uvi is not None:
         out[targets.ANIMAL_UVI_MEAN] = linear_interval(found.mean_uvi, factors)
     if found.light_hours is not None:
