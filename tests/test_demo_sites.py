@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.judge.targets import BORDERLINE, WITHIN
+from audit_lib.judge.targets import ABOVE, BORDERLINE, WITHIN
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
 
@@ -57,12 +57,15 @@ def test_client_site_meets_targets_after_the_tube_change():
     """The client's 2026 visit, after the tube was replaced, meets every target (same sources
     as above), except one finding planted by the UV provision rule: the crested gecko is given
     a whole-enclosure gradient, and the 0.8 UVI read at its top branch is above zone 1's mean
-    range 0-0.7 (Ferguson et al. 2010, from memory)."""
+    range 0-0.7 (Ferguson et al. 2010, from memory); with the meter's 90 % interval it is
+    above the range or borderline, never within it."""
     audits = _audits(SAMPLES / "ashdown-private-collection")
     for enclosure_id, audit in audits.items():
         # surely out of range; a borderline check (interval across a limit) is not planted
         failing = {c.id for c in audit.checks if c.state not in (WITHIN, BORDERLINE)}
         if enclosure_id == "gecko-terrarium":
-            assert failing == {"used_area_uvi_max"}, failing
+            used = {c.id: c.state for c in audit.checks}["used_area_uvi_max"]
+            assert used in (ABOVE, BORDERLINE), used
+            assert failing <= {"used_area_uvi_max"}, failing
         else:
             assert not failing, (enclosure_id, failing)
