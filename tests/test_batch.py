@@ -90,7 +90,8 @@ def test_results_json_is_strict_json(tmp_path):
     first, second = back["enclosures"]
     assert set(first) >= {"id", "verdict", "report", "checks", "error"}
     assert set(first["checks"][0]) == {"check_id", "name", "species", "value", "unit",
-                                       "target_low", "target_high", "state", "reason"}
+                                       "target_low", "target_high", "state", "reason",
+                                       "basis", "source", "value_low", "value_high"}
     assert first["checks"][0]["check_id"] == "basking_uvi_max"
     assert first["lamps"] == [] and first["actions"] == [] and "audit_date" in first
     assert first["checks"][1]["value"] is None and first["checks"][1]["target_high"] is None
@@ -257,8 +258,9 @@ def test_demo_figures_agree_across_results_csv_index_and_overview(demo_run):
             else:
                 assert float(row["value"]) == check_rounded(check)
                 assert check_rounded(check) == pytest.approx(check["value"], abs=0.5)
-        bask = next(c for c in entry["checks"] if c["check_id"] == "basking_uvi_max")
-        assert f"{check_text(bask)} <" in overview_html
+        bask = next(c for c in entry["checks"]
+                    if c["check_id"] in ("basking_uvi_max", "used_area_uvi_max"))
+        assert f"{check_text(bask)} <" in overview_html, bask
         for lamp in entry["lamps"]:
             assert lamp["replace_by"] is None or lamp["replace_by"] in overview_html
 

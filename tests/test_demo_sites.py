@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from audit_lib.judge.targets import WITHIN
+from audit_lib.judge.targets import ABOVE, BORDERLINE, WITHIN
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sites"
 
@@ -43,7 +43,8 @@ def test_park_verdicts_match_the_planted_problems():
     audit_lib.judge.targets (ICNIRP 2004 actinic limit; refuge threshold common practice)."""
     audits = _audits(SAMPLES / "kestrel-moor-wildlife-park")
     for enclosure_id, audit in audits.items():
-        failing = {c.name for c in audit.checks if c.state != WITHIN}
+        # surely out of range; a borderline check (interval across a limit) is not planted
+        failing = {c.name for c in audit.checks if c.state not in (WITHIN, BORDERLINE)}
         if enclosure_id in PLANTED:
             assert PLANTED[enclosure_id] in failing, (enclosure_id, failing)
         else:
@@ -54,8 +55,17 @@ def test_park_verdicts_match_the_planted_problems():
 @pytest.mark.slow
 def test_client_site_meets_targets_after_the_tube_change():
     """The client's 2026 visit, after the tube was replaced, meets every target (same sources
-    as above)."""
+    as above), except one finding planted by the UV provision rule: the crested gecko is given
+    a whole-enclosure gradient, and the 0.8 UVI read at its top branch is above zone 1's mean
+    range 0-0.7 (Ferguson et al. 2010, from memory); with the meter's 90 % interval it is
+    above the range or borderline, never within it."""
     audits = _audits(SAMPLES / "ashdown-private-collection")
     for enclosure_id, audit in audits.items():
-        failing = {c.name for c in audit.checks if c.state != WITHIN}
-        assert not failing, (enclosure_id, failing)
+        # surely out of range; a borderline check (interval across a limit) is not planted
+        failing = {c.id for c in audit.checks if c.state not in (WITHIN, BORDERLINE)}
+        if enclosure_id == "gecko-terrarium":
+            used = {c.id: c.state for c in audit.checks}["used_area_uvi_max"]
+            assert used in (ABOVE, BORDERLINE), used
+            assert failing <= {"used_area_uvi_max"}, failing
+        else:
+            assert not failing, (enclosure_id, failing)

@@ -153,6 +153,8 @@ def test_planner_agrees_with_the_audit_orchestrator(site, tmp_path):
     copy, enclosure = write_scenario_site(root, "lower", tmp_path / "copy")
     audit = audit_enclosure(load_site(copy), enclosure, spacing_m=0.02, with_failures=False)
     assert audit.calibration == 1.0
+    planner.uncertainty = audit.findings.uncertainty  # judge with the audit's intervals
+    r = planner.update()
     assert r.basking_max_uvi == pytest.approx(
         audit.surface_stats.query("quantity == 'uvi' and kind == 'basking'")["maximum"].max(),
         rel=1e-5)

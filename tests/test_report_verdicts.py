@@ -7,7 +7,7 @@ from audit_lib.report.verdicts import style_verdict_table, verdict_frame, verdic
 def _verdict():
     zones = read_zone_table()
     species = species_targets([{"id": "odd<script>", "scientific_name": "A & <b>B</b>",
-                                "zone": 4}])
+                                "zone": 4, "uv_provision": "basking_patch"}])
     return assess_enclosure("viv<1>", species["odd<script>"], zones[4], basking_max_uvi=11.2,
                             mean_uvi=3.0, refuge_share=0.1, light_hours=12.0,
                             floor_area_m2=0.72)

@@ -129,7 +129,7 @@ def test_screen_refuge_photoperiod_keeper_and_replacement_actions(zones, species
 def test_emitter_action_and_future_replacement(zones, species):
     """Emitter count scales UVI linearly (superposition of identical emitters): 12 emitters
     giving 2.0 UVI need round(12 x 5.15 / 2.0) = 31 for the zone 3 mid maximum 5.15."""
-    checks = assess_enclosure("v", species["veiled-chameleon"], zones[3],
+    checks = assess_enclosure("v", species["hermanns-tortoise"], zones[3],
                               basking_max_uvi=2.0).checks
     actions = recommend_actions(checks, emitters_for_uvi=lambda u: round(12 * u / 2.0),
                                 current_emitters=12, replacement_date=dt.date(2027, 6, 1),

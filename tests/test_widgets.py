@@ -188,3 +188,17 @@ def test_panel_in_jupyterlab(tmp_path):
     finally:
         os.killpg(lab.pid, signal.SIGTERM)
         lab.wait(timeout=30)
+
+
+def test_apply_the_plan_button_moves_the_planner_and_the_controls(tmp_path):
+    """"Apply the plan" leaves the planner at the plan and the controls follow it."""
+    root = tmp_path / "site"
+    shutil.copytree(DEMO, root)
+    panel = open_panel(root, "rh-02", shape=(15, 30))
+    panel.plan_button.click()
+    plan = panel.plan
+    assert plan is not None and plan.reason in panel.status.value.replace("&#x27;", "'")
+    assert [c.state for c in panel.planner.result.checks] == \
+        [c.state for c in plan.checks_after]
+    for key in ("z_m", "x_m", "lamp_model", "screen"):
+        assert panel.controls[key].value == getattr(panel.planner.config, key)

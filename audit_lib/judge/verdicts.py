@@ -21,6 +21,7 @@ from audit_lib.judge.targets import (
     ABOVE,
     BASKING_UVI_MAX,
     BELOW,
+    BORDERLINE,
     COMMON_PRACTICE,
     KEEPER_EXPOSURE_TIME,
     KEEPER_TIME_S,
@@ -32,6 +33,7 @@ from audit_lib.judge.targets import (
     REFUGE_UVI_MAX,
     SHORT_UVB_SHARE,
     SHORT_UVB_TOLERANCE,
+    UVI_TOP_CHECKS,
     SpeciesTarget,
     Zone,
     check_basking_max,
@@ -40,10 +42,15 @@ from audit_lib.judge.targets import (
     check_mean_exposure,
     check_refuge,
     check_short_wave_share,
+    check_used_area_max,
+    with_interval,
 )
 
 MEETS, ATTENTION = "meets targets", "needs attention"
-OVERALL_STATES = (MEETS, ATTENTION, NO_DATA)
+#: Overall states. ``BORDERLINE`` (the checks' word): no check is surely out of range but at
+#: least one check's 90 % interval crosses a limit, so the enclosure may or may not meet
+#: its targets; it is counted apart from both "meets targets" and "needs attention".
+OVERALL_STATES = (MEETS, ATTENTION, BORDERLINE, NO_DATA)
 
 
 @dataclass(frozen=True)
@@ -119,21 +126,35 @@ class Verdict:
 def overall_state(checks) -> tuple[str, str]:
     """Overall state and reason from a set of checks.
 
-    "needs attention" if any check is out of range; "not enough data" if the basking maximum
-    is missing; otherwise "meets targets", naming any check that lacked data.
+    "needs attention" if any check is out of range (its whole interval outside); "not enough
+    data" if the basking maximum is missing; "borderline" if any check is borderline (its
+    interval crosses a limit); otherwise "meets targets", naming any check that lacked data.
     """
     out = [c for c in checks if c.state in (BELOW, ABOVE)]
     missing = [c for c in checks if c.state == NO_DATA]
     if out:
         names = "; ".join(f"{c.name} {c.state}" for c in out)
         return ATTENTION, f"{len(out)} of {len(checks)} checks are out of range: {names}."
-    if not checks or any(c.id == BASKING_UVI_MAX for c in missing):
+    if not checks or any(c.id in UVI_TOP_CHECKS for c in missing):
         return NO_DATA, "The basking UV Index maximum is missing, so the zone cannot be judged."
     names = ", ".join(c.name for c in missing)
     extra = f" ({len(missing)} could not be made for lack of data: {names})" if missing else ""
+    close = [c for c in checks if c.state == BORDERLINE]
+    if close:
+        names = "; ".join(c.name for c in close)
+        return BORDERLINE, (f"No check is surely out of range, but {len(close)} of "
+                            f"{len(checks)} are borderline (the figure's 90 % interval crosses "
+                            f"a limit): {names}{extra}.")
     made = len(checks) - len(missing)
     lead = "The one check made is" if made == 1 else f"All {made} checks made are"
     return MEETS, f"{lead} within range{extra}."
+
+
+def _top_words(check) -> str:
+    """What the UV Index top check measures, for action sentences."""
+    if check.id == BASKING_UVI_MAX:
+        return "basking UV Index"
+    return "highest UV Index over the area used"
 
 
 def _mid(low, high):
@@ -164,7 +185,7 @@ def _height_actions(bask, height_search, goal) -> list[Action]:
         where = (f"down to {answer.heights_m.min() - answer.surface_z_m:.2f} m above the "
                  "basking surface")
         fix = "use a stronger lamp or more emitters"
-    text = (f"No mount height of the lamp {lamp} {where} brings the basking UV Index into "
+    text = (f"No mount height of the lamp {lamp} {where} brings the {_top_words(bask)} into "
             f"{bask.target_low:g}-{bask.target_high:g}: the closest is "
             f"{answer.suggested_uvi:.1f} at {answer.suggested_height_m:.2f} m above the floor; "
             f"{fix}.")
@@ -174,7 +195,7 @@ def _height_actions(bask, height_search, goal) -> list[Action]:
 def _basking_actions(bask, height_search, emitters_for_uvi, current_emitters,
                      screen_transmission, lamp) -> list[Action]:
     target = _mid(bask.target_low, bask.target_high)
-    goal = f"to bring the basking UV Index from {bask.value:.1f} to about {target:.1f}"
+    goal = f"to bring the {_top_words(bask)} from {bask.value:.1f} to about {target:.1f}"
     out = []
     if height_search is not None:
         out += _height_actions(bask, height_search, goal)
@@ -255,7 +276,8 @@ def recommend_actions(
     """
     by_id = {c.id: c for c in checks}
     actions: list[Action] = []
-    bask = by_id.get(BASKING_UVI_MAX)
+    bask = by_id.get(BASKING_UVI_MAX) or next(
+        (by_id[i] for i in UVI_TOP_CHECKS if i in by_id), None)  # the UV Index top check
     if bask is not None and bask.state in (BELOW, ABOVE):
         actions += _basking_actions(
             bask, height_search, emitters_for_uvi, current_emitters, screen_transmission, lamp,
@@ -317,6 +339,8 @@ def assess_enclosure(
     keeper_limit_s=None,
     keeper_time_s: float = KEEPER_TIME_S,
     working_distance_m=None,
+    used_area_max_uvi=None,
+    intervals=None,
     **action_inputs,
 ) -> Verdict:
     """Every check for one enclosure and species, the overall verdict and the actions.
@@ -346,6 +370,13 @@ def assess_enclosure(
         Keeper's daily time at the working distance [s].
     working_distance_m : float, optional
         Keeper's working distance [m].
+    used_area_max_uvi : float, optional
+        Highest UV Index over the area the animal uses: judged instead of the basking
+        maximum for a species given UV as a whole-enclosure gradient
+        (:data:`audit_lib.judge.targets.PROVISION_CHECKS`) [-].
+    intervals : dict of str to (float, float), optional
+        Check id to the figure's 90 % interval (:func:`audit_lib.judge.targets.with_interval`
+        sets it and applies the borderline rule) [the check's unit].
     **action_inputs
         Passed to :func:`recommend_actions` (``height_search``, ``screen_transmission``, ...).
 
@@ -357,8 +388,10 @@ def assess_enclosure(
         raise InputError(
             f"species {species.id!r} is in zone {species.zone}, not {zone.zone}", field="zone"
         )
+    top = (check_used_area_max(used_area_max_uvi, zone) if species.uv_provision == "gradient"
+           else check_basking_max(basking_max_uvi, zone))
     checks = (
-        check_basking_max(basking_max_uvi, zone),
+        top,
         check_mean_exposure(mean_uvi, zone),
         check_refuge(refuge_share, min_share=refuge_min_share, refuge_uvi_max=refuge_uvi_max),
         check_light_hours(light_hours, light_hours_range, light_hours_source),
@@ -367,6 +400,8 @@ def assess_enclosure(
             keeper_limit_s, working_time_s=keeper_time_s, working_distance_m=working_distance_m
         ),
     )
+    if intervals:
+        checks = tuple(with_interval(c, *intervals.get(c.id, (None, None))) for c in checks)
     state, reason = overall_state(checks)
     actions = tuple(recommend_actions(checks, **action_inputs))
     notes = []
@@ -415,10 +450,15 @@ def recommendation(verdicts) -> str:
             seen.add(a.text)
             actions.append(a)
     out = [c for c in checks if c.state in (BELOW, ABOVE)]
-    if not out and not actions:
+    close = [c for c in checks if c.state == BORDERLINE]
+    if not out and not actions and not close:
         return NO_CHANGE
     parts = [a.text for a in actions]
     left = unanswered_sentence(checks, actions)
     if left:
         parts.append(left)
+    if close:
+        names = "; ".join(c.name for c in close)
+        parts.append(f"Too close to call: {names}. Measure again with a recently calibrated "
+                     "meter, or follow the plan to gain margin.")
     return " ".join(parts)

@@ -177,7 +177,7 @@ def _screen(record, z_m: float, site):
                   transmittance=tuple(transmittance), kind=record.kind)
 
 
-def build_scene(site, enclosure_id: str, *, lamp_overrides=None):
+def build_scene(site, enclosure_id: str, *, lamp_overrides=None, built=None):
     """Return the :class:`audit_lib.scene.maps.Enclosure` of one enclosure of a site.
 
     Parameters
@@ -189,10 +189,13 @@ def build_scene(site, enclosure_id: str, *, lamp_overrides=None):
     lamp_overrides : dict of str to dict, optional
         Per lamp id, fields of its placement to change (``x_m``, ``y_m``, ``z_m``,
         ``tilt_deg``, ``rotation_deg``): the what-if questions.
+    built : dict of str to lamp, optional
+        Lamp model id to its physics lamp, already built (used, and filled with the lamps
+        built here): the what-if planner's cache, so a lamp is not rebuilt per placement.
     """
     record = site.enclosure(enclosure_id)
     overrides = lamp_overrides or {}
-    built: dict[str, object] = {}
+    built = {} if built is None else built
     placed = []
     for place in record.lamps:
         if place.model not in built:

@@ -40,6 +40,7 @@ from audit_lib.pipeline import steps
 from audit_lib.pipeline.assemble import build_scene, failed_labels, lamp_schedule
 from audit_lib.pipeline.findings import Findings, collect_notes, find_figures
 from audit_lib.pipeline.forecast import lamp_forecasts, site_lamp_installs
+from audit_lib.pipeline.uncertainty import audit_uncertainty
 from audit_lib.scene.maps import compute_maps, point_values, statistics_table
 from audit_lib.site.checks import calibration_warnings
 from audit_lib.site.dates import parse_date
@@ -103,6 +104,9 @@ class EnclosureAudit:
         warnings, collected by :func:`audit_lib.pipeline.findings.collect_notes`).
     provenance : dict
         What the figures rest on (files, versions, settings).
+    plan : audit_lib.pipeline.plan.Plan or None
+        The changes that bring every check within range (set by
+        :func:`audit_lib.pipeline.plan.audit_with_plan`; None when not planned).
     """
 
     site_name: str
@@ -130,6 +134,7 @@ class EnclosureAudit:
     lamp_spectra: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
     provenance: dict = field(default_factory=dict)
+    plan: object = None
 
     species = property(lambda self: self.findings.species, doc="Species judged.")
     zone = property(lambda self: self.findings.zone, doc="Zone of the highest species.")
@@ -285,10 +290,13 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
                          species=species, zones=zones, profiles=profiles,
                          spectra_metrics=spectra, audit_date=day, spacing_m=spacing_m,
                          replacement_date=replace_by,
-                         unknown_species=[s for s in record.species if s not in known])
+                         unknown_species=[s for s in record.species if s not in known],
+                         target_settings=targets.TargetSettings.from_record(site.records.targets),
+                         uncertainty=audit_uncertainty(site, enclosure_id, day, points))
     zone = found.zone
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
-    stats = statistics_table(maps, uvi_range=max_range, refuge_below_uvi=targets.REFUGE_UVI_MAX)
+    stats = statistics_table(maps, uvi_range=max_range,
+                             refuge_below_uvi=found.target_settings.refuge_uvi_max)
 
     sun_lat, sun_lon, sun_offset, sun_place = steps.sun_place(site, species, day)
     monthly = None

@@ -8,7 +8,13 @@ audit day's readings, the planner to the plan's output share. Everything after t
 
 * Basking maximum: highest UV Index over the basking surfaces (the floor if there are none),
   at the brightest cell of the map (the "peak point").
-* Refuge: share of the floor cells at or below :data:`audit_lib.judge.targets.REFUGE_UVI_MAX`.
+* Used area (species given UV as a whole-enclosure gradient): highest UV Index over the
+  places of the time budget (each surface's whole map, each named position's point); all
+  surfaces and the floor without a time budget. Judged instead of the basking maximum
+  (:data:`audit_lib.judge.targets.PROVISION_CHECKS`); the height action then works on the
+  surface holding that maximum (the basking surface if it lies at a named position).
+* Refuge: share of the floor cells at or below the refuge UV Index (project default
+  :data:`audit_lib.judge.targets.REFUGE_UVI_MAX`, or the site's ``[targets]`` setting).
 * The day: each lamp's contribution at the peak point times its output profile (schedules);
   daily doses there; hours with any lamp on.
 * Animal mean: the time budget's share-weighted mean UV Index while active, each place
@@ -19,6 +25,12 @@ audit day's readings, the planner to the plan's output share. Everything after t
 * Short-wave UVB share: highest over the lamp models' spectra (the report's spectrum table).
 * Checks per species against its zone, the overall verdict, and the actions with the one
   bounded height search (:func:`audit_lib.scene.inverse.height_for_target`).
+* Intervals (given an :class:`audit_lib.judge.uncertainty.OutputUncertainty`): the scale
+  factor's 90 % interval carried through each figure's own map, vectorised: basking maximum
+  and animal mean times the factor's ends (linear in output), the refuge share recounted on
+  the floor map at both ends, the keeper limit inversely with the rated output; light hours
+  and the short-wave share do not depend on lamp output (zero width). Overall: "needs
+  attention" beats "borderline" beats "meets targets" (:mod:`audit_lib.judge.verdicts`).
 
 Notes: :func:`collect_notes` turns the library's warnings raised on the way into notes, in
 one place for both entry points; :func:`find_figures` adds its own (unknown species,
@@ -42,6 +54,12 @@ from audit_lib.day.dose import (
 from audit_lib.day.photoperiod import lit_hours_of_table
 from audit_lib.errors import AuditWarning
 from audit_lib.judge import targets
+from audit_lib.judge.uncertainty import (
+    OutputUncertainty,
+    inverse_interval,
+    linear_interval,
+    share_at_or_below_interval,
+)
 from audit_lib.judge.verdicts import ATTENTION, MEETS, assess_enclosure, recommendation
 from audit_lib.light.metrics import sun_reference
 from audit_lib.pipeline.steps import budget_places, keeper_limit, per_lamp_values
@@ -83,12 +101,22 @@ class Findings:
         Shortest keeper limit at the working distance, lamps as new [s].
     short_uvb_fraction : float or None
         Highest 280-290 nm share of UVB over the lamp models [-].
+    used_area_max_uvi : float or None
+        Highest UV Index over the area the animal uses [-].
+    used_area_place : str
+        The place (surface or position) holding it.
+    target_settings : TargetSettings
+        The site's targets (project defaults unless the site sets them).
     verdicts : list of Verdict
         One per species.
     verdict, reason : str
         Overall state (the worst of the species' verdicts) and its reason.
     notes : list of str
         Caveats the views must show.
+    uncertainty : OutputUncertainty or None
+        The scale factor's uncertainty behind the checks' intervals (None: no intervals).
+    intervals : dict of str to (float, float)
+        Check id to the figure's 90 % interval [the check's unit].
     """
 
     species: list
@@ -107,10 +135,15 @@ class Findings:
     mean_uvi: float | None = None
     keeper_limit_s: float | None = None
     short_uvb_fraction: float | None = None
+    used_area_max_uvi: float | None = None
+    used_area_place: str = ""
+    target_settings: targets.TargetSettings = field(default_factory=targets.TargetSettings)
     verdicts: list = field(default_factory=list)
     verdict: str = targets.NO_DATA
     reason: str = ""
     notes: list = field(default_factory=list)
+    uncertainty: OutputUncertainty | None = None
+    intervals: dict = field(default_factory=dict)
 
     @property
     def checks(self) -> list:
@@ -188,7 +221,7 @@ def short_uvb_fraction(spectra_metrics: dict) -> float | None:
 def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles,
                  spectra_metrics, audit_date, spacing_m, main_lamp=None,
                  replacement_date=None, unknown_species=(), cache=None,
-                 cache_key=None) -> Findings:
+                 cache_key=None, target_settings=None, uncertainty=None) -> Findings:
     """From one enclosure's UV Index maps to its figures, checks, verdict and actions.
 
     Parameters
@@ -224,6 +257,12 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     cache, cache_key : optional
         ``cache(kind, key, build)`` memoises stages across calls for one placement
         ``cache_key`` (the what-if planner); no caching by default.
+    target_settings : TargetSettings, optional
+        The site's targets (:meth:`TargetSettings.from_record` of its ``[targets]`` table);
+        the project defaults by default.
+    uncertainty : OutputUncertainty, optional
+        Uncertainty of ``scale``: each check gets its 90 % interval and the borderline rule
+        (none without it).
 
     Returns
     -------
@@ -234,8 +273,12 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
              for s in unknown_species]
     zone = zones[max(s.zone for s in species)] if species else None
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
+    settings = target_settings or targets.TargetSettings()
+    if settings.overridden:
+        notes.append("This site sets its own targets instead of the project defaults: "
+                     + "; ".join(settings.changed()) + ".")
     surface, peak, basking_max = _peak(scene, maps)
-    refuge = float(np.mean(maps["floor"].values["uvi"] <= targets.REFUGE_UVI_MAX))
+    refuge = float(np.mean(maps["floor"].values["uvi"] <= settings.refuge_uvi_max))
     at_peak = cache("peak", (cache_key, failed, tuple(peak)),
                     lambda: per_lamp_values(scene, peak[None, :], failed))
     uvi_peak = {k: scale * float(v[0]) for k, v in at_peak["uvi"].items()}
@@ -243,7 +286,10 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     found = Findings(species=list(species), zone=zone, basking_surface=surface,
                      peak_point_m=peak, basking_max_uvi=basking_max, refuge_share=refuge,
                      uvi_at_peak=uvi_peak, vitamin_d_at_peak=vitd_peak, profiles=profiles,
-                     notes=notes)
+                     target_settings=settings, notes=notes, uncertainty=uncertainty)
+    if any(s.uv_provision == "gradient" for s in species):
+        found.used_area_place, found.used_area_max_uvi = _used_area_max(
+            record, scene, maps, failed, scale)
     if profiles is not None:
         found.light_hours = lit_hours_of_table(profiles)
         found.daily_uvi = uvi_series(uvi_peak, profiles)
@@ -254,9 +300,53 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     found.keeper_limit_s = cache("keeper", (cache_key, failed),
                                  lambda: keeper_limit(scene, record, failed))
     found.short_uvb_fraction = short_uvb_fraction(spectra_metrics)
+    if uncertainty is not None:
+        found.intervals = figure_intervals(found, maps["floor"].values["uvi"], uncertainty)
     _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key)
+           replacement_date, cache, cache_key, maps)
     return found
+
+
+def _used_area_max(record, scene, maps, failed, scale) -> tuple[str, float]:
+    """Place and value of the highest UV Index over the area the animal uses [-].
+
+    The places of the time budget with a share above zero (a surface by its whole map, a
+    named position by its point); every surface and the floor without a time budget.
+    """
+    used = [k for k, share in record.time_budget.items() if share > 0] or list(maps)
+    positions = {p.id: p for p in record.positions}
+    values = {}
+    for name in used:
+        if name in maps:
+            values[name] = float(maps[name].values["uvi"].max())
+        elif name in positions:
+            p = positions[name]
+            per = per_lamp_values(scene, np.array([[p.x_m, p.y_m, p.z_m]]), failed)["uvi"]
+            values[name] = scale * float(sum(float(v[0]) for v in per.values()))
+    if not values:
+        return "", None
+    place = max(values, key=values.get)
+    return place, values[place]
+
+
+def figure_intervals(found: Findings, floor_uvi, uncertainty: OutputUncertainty) -> dict:
+    """Check id to the 90 % interval of its figure (see the module docstring) [unit]."""
+    factors = uncertainty.scale_factors()
+    out = {targets.BASKING_UVI_MAX: linear_interval(found.basking_max_uvi, factors),
+           targets.REFUGE_FLOOR_SHARE: share_at_or_below_interval(
+               floor_uvi, found.target_settings.refuge_uvi_max, factors)}
+    if found.used_area_max_uvi is not None:
+        out[targets.USED_AREA_UVI_MAX] = linear_interval(found.used_area_max_uvi, factors)
+    if found.mean_uvi is not None:
+        out[targets.ANIMAL_UVI_MEAN] = linear_interval(found.mean_uvi, factors)
+    if found.light_hours is not None:
+        out[targets.LIGHT_HOURS] = (found.light_hours, found.light_hours)
+    if found.short_uvb_fraction is not None:
+        out[targets.SHORT_UVB_SHARE] = (found.short_uvb_fraction, found.short_uvb_fraction)
+    if found.keeper_limit_s is not None:  # the check's unit is minutes
+        low, high = inverse_interval(found.keeper_limit_s / 60.0, uncertainty.rated_factors())
+        out[targets.KEEPER_EXPOSURE_TIME] = (low, high)
+    return out
 
 
 def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) -> None:
@@ -290,18 +380,25 @@ def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) ->
 
 
 def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key) -> None:
+           replacement_date, cache, cache_key, maps) -> None:
     """Checks, verdicts and actions of every species; the overall state and reason."""
     main = None
     if scene.lamps:
         main = next((p for p in scene.lamps if p.id == main_lamp), None) or max(
             scene.lamps, key=lambda p: found.uvi_at_peak.get(p.id, 0.0))
 
-    def height_search(uvi_range, aim):
-        key = (cache_key, failed, scale, found.basking_surface, tuple(uvi_range), aim)
-        return cache("height", key, lambda: height_for_target(
-            scene, main.id, found.basking_surface, uvi_range, aim_uvi=aim, failed=failed,
-            scale=scale, spacing_m=spacing_m))
+    def search_on(surface):
+        def height_search(uvi_range, aim):
+            key = (cache_key, failed, scale, surface, tuple(uvi_range), aim)
+            return cache("height", key, lambda: height_for_target(
+                scene, main.id, surface, uvi_range, aim_uvi=aim, failed=failed,
+                scale=scale, spacing_m=spacing_m))
+        return height_search if main is not None else None
+
+    def surface_of(species):  # where the species' UV Index top check is made
+        if species.uv_provision == "gradient" and found.used_area_place in maps:
+            return found.used_area_place
+        return found.basking_surface
 
     screens = [s.transmission for s in scene.screens if s.transmission is not None]
     sun_short = sun_reference()["short_uvb_fraction"]
@@ -311,15 +408,18 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
         light_hours=found.light_hours, short_uvb_fraction=found.short_uvb_fraction,
         sun_short_uvb_fraction=sun_short, keeper_limit_s=found.keeper_limit_s,
         working_distance_m=record.keeper_working_distance_m,
-        height_search=height_search if main is not None else None,
+        used_area_max_uvi=found.used_area_max_uvi,
+        **found.target_settings.assess_kwargs(),
+        height_search=search_on(surface_of(s)),
         screen_transmission=min(screens) if screens else None,
         floor_area_m2=record.width_m * record.depth_m, replacement_date=replacement_date,
-        audit_date=audit_date, lamp=main.id if main else "") for s in found.species]
+        audit_date=audit_date, lamp=main.id if main else "", intervals=found.intervals)
+        for s in found.species]
     states = [v.state for v in found.verdicts]
     if ATTENTION in states:
         found.verdict = ATTENTION
-    elif states and all(s == MEETS for s in states):
-        found.verdict = MEETS
+    elif states and all(s in (MEETS, targets.BORDERLINE) for s in states):
+        found.verdict = targets.BORDERLINE if targets.BORDERLINE in states else MEETS
     else:
         found.verdict = targets.NO_DATA
     found.reason = (" ".join(v.reason for v in found.verdicts)
@@ -328,4 +428,5 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
         found.notes += [n for n in v.notes if n not in found.notes]
 
 
-__all__ = ["Findings", "collect_notes", "find_figures", "short_uvb_fraction"]
+__all__ = ["Findings", "collect_notes", "figure_intervals", "find_figures",
+           "short_uvb_fraction"]

@@ -23,7 +23,7 @@ import numpy as np
 
 from audit_lib.day.photoperiod import daily_profiles
 from audit_lib.errors import InputError
-from audit_lib.judge.targets import REFUGE_UVI_MAX, read_zone_table, species_targets
+from audit_lib.judge.targets import TargetSettings, read_zone_table, species_targets
 from audit_lib.light.sun import clear_sky_uvi_day
 from audit_lib.pipeline.assemble import build_lamp, build_scene, failed_labels, lamp_schedule
 from audit_lib.pipeline.audit import DEFAULT_SPACING_M, choose_audit_date
@@ -125,10 +125,16 @@ class WhatIfPlanner:
         (ny, nx) map grid on the floor [-].
     audit_date : str or datetime.date, optional
         Day of the schedules and of the sun's curve (default the site's audit day).
+    spacing_m : float, optional
+        Grid spacing of every surface's map instead of ``shape`` (the audit's grid, so the
+        planner at the audit's output share gives the report's figures) [m].
+    uncertainty : audit_lib.judge.uncertainty.OutputUncertainty, optional
+        Uncertainty of the output share: the checks get their 90 % intervals and the
+        borderline rule (the audit's budget, :func:`audit_lib.pipeline.plan.audit_planner`).
     """
 
     def __init__(self, site, enclosure_id: str = "", *, lamp: str = "", blank=None,
-                 shape=DEFAULT_SHAPE, audit_date=None):
+                 shape=DEFAULT_SHAPE, audit_date=None, spacing_m=None, uncertainty=None):
 
         self.blank = None
         if not enclosure_id:
@@ -140,12 +146,15 @@ class WhatIfPlanner:
         self.enclosure_id = enclosure_id
         self.record = site.enclosure(enclosure_id)
         self.shape = tuple(int(v) for v in shape)
+        self.spacing_m = None if spacing_m is None else float(spacing_m)
+        self.uncertainty = uncertainty
         self.day = choose_audit_date(site, audit_date)
         self.config = plan_from_site(site, enclosure_id, lamp, self.day)
 
         self._species = species_targets(site.records.species)
         self._zones = read_zone_table()
         self._cache: dict = {}
+        self._site_lamps: dict = {}  # lamp models other than the planned one, as the site has them
         self.result: PlanResult | None = None
 
     # --- choices for the controls ---------------------------------------------------------
@@ -189,7 +198,7 @@ class WhatIfPlanner:
 
     def _place_key(self, c: PlanConfig):
         return (c.lamp, *self._lamp_key(c), c.x_m, c.y_m, c.z_m, c.tilt_deg, c.rotation_deg,
-                c.screen, self.shape)
+                c.screen, self.shape, self.spacing_m)
 
     def _cached(self, kind, key, build):
         slot = self._cache.setdefault(kind, {})
@@ -207,8 +216,16 @@ class WhatIfPlanner:
     def scene(self, config: PlanConfig | None = None, site=None):
         """The planned :class:`audit_lib.scene.maps.Enclosure` (cached per placement)."""
         c = config or self.config
-        return self._cached("scene", self._place_key(c), lambda: build_scene(
-            site or self.planned_site(c), self.enclosure_id))
+
+        def build():
+            built = {m: lamp for m, lamp in self._site_lamps.items() if m != c.lamp_model}
+            built[c.lamp_model] = self._lamp(c)
+            scene = build_scene(site or self.planned_site(c), self.enclosure_id, built=built)
+            self._site_lamps.update({m: lamp for m, lamp in built.items()
+                                     if m != c.lamp_model})
+            return scene
+
+        return self._cached("scene", self._place_key(c), build)
 
     def failed_labels(self, config: PlanConfig | None = None, site=None) -> tuple[str, ...]:
         """Failure labels of the plan's failed emitters (all lamps of the enclosure)."""
@@ -217,6 +234,8 @@ class WhatIfPlanner:
 
     def grids(self, scene):
         """Surface name to (shape or None, spacing) used for its map."""
+        if self.spacing_m is not None:
+            return {s.name: (None, self.spacing_m) for s in scene.all_surfaces}
         floor = scene.surface("floor")
         spacing = min((floor.x_max_m - floor.x_min_m) / self.shape[1],
                       (floor.y_max_m - floor.y_min_m) / self.shape[0])
@@ -300,7 +319,8 @@ class WhatIfPlanner:
         species = self._species.get(c.species)
         zone = self._zones[species.zone] if species else None
         max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
-        stats = {n: surface_statistics(m, max_range, REFUGE_UVI_MAX)
+        settings = TargetSettings.from_record(site.records.targets)
+        stats = {n: surface_statistics(m, max_range, settings.refuge_uvi_max)
                  for n, m in maps.items()}
         record = site.enclosure(self.enclosure_id)
         profiles = None
@@ -317,7 +337,8 @@ class WhatIfPlanner:
             species=[species] if species else [], zones=self._zones, profiles=profiles,
             spectra_metrics=spectra, audit_date=self.day,
             spacing_m=DEFAULT_SPACING_M, main_lamp=c.lamp,  # height search on the reports' grid
-            cache=self._cached, cache_key=self._place_key(c))
+            cache=self._cached, cache_key=self._place_key(c), target_settings=settings,
+            uncertainty=self.uncertainty)
         t3 = time.perf_counter()
         notes = [f"On {part:.0%} of {name!r} a lamp known from readings is used outside the "
                  "distances it was measured at: values there are extrapolated."

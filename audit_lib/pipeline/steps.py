@@ -93,19 +93,23 @@ def measuring_positions(record, maps, measured_at) -> pd.DataFrame:
 CALIBRATION_MIN_UVI = 0.5
 
 
-def calibration_factor(points: pd.DataFrame) -> float:
-    """Median of measured / modelled UV Index over the positions with a usable reading [-].
+def calibration_ratios(points: pd.DataFrame) -> np.ndarray:
+    """Measured / modelled UV Index at the positions the calibration uses [-].
 
-    Positions reading at least :data:`CALIBRATION_MIN_UVI` are used; if none does, every
-    position with a reading above zero. 1.0 (no scaling) when there is no usable reading.
+    Positions reading at least :data:`CALIBRATION_MIN_UVI`; if none does, every position
+    with a reading above zero (empty when there is no usable reading).
     """
     ok = points.dropna(subset=["measured_uvi"])
     ok = ok[(ok["uvi"] > 0) & (ok["measured_uvi"] > 0)]
     strong = ok[ok["measured_uvi"] >= CALIBRATION_MIN_UVI]
     ok = strong if len(strong) else ok
-    if ok.empty:
-        return 1.0
-    return float(np.median(ok["measured_uvi"] / ok["uvi"]))
+    return (ok["measured_uvi"] / ok["uvi"]).to_numpy(dtype=float)
+
+
+def calibration_factor(points: pd.DataFrame) -> float:
+    """Median of :func:`calibration_ratios` [-]; 1.0 (no scaling) without a usable reading."""
+    ratios = calibration_ratios(points)
+    return float(np.median(ratios)) if ratios.size else 1.0
 
 
 def scale_maps(maps, factor):

@@ -15,12 +15,15 @@ from html import escape
 import numpy as np
 import pandas as pd
 
-from audit_lib.judge.targets import KEEPER_EXPOSURE_TIME
+from audit_lib.judge.targets import FROM_MEMORY, KEEPER_EXPOSURE_TIME
 from audit_lib.judge.verdicts import unanswered_sentence
+from audit_lib.light.metrics import RISK_GROUPS
+from audit_lib.pipeline.plan import plan_entry
 from audit_lib.report import formats as fmt
 from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.formats import HTMLBlock
 from audit_lib.report.index_page import state_class
+from audit_lib.report.plan import borderline_note, interval_text
 
 #: MIME type of the report data (see :mod:`audit_lib.run.notebooks`).
 REPORT_DATA_MIMETYPE = "application/vnd.audit-lib.report+json"
@@ -44,18 +47,36 @@ def _iso(value) -> str | None:
     return pd.Timestamp(value).date().isoformat()
 
 
+def check_entry(c, species: str = "", name: str | None = None) -> dict:
+    """One check as ``results.json`` holds it (infinite limits and figures as null)."""
+    return {"check_id": c.id, "name": name or c.name, "species": species,
+            "value": _finite(c.value), "unit": c.unit,
+            "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
+            "state": c.state, "reason": c.reason, "basis": c.basis, "source": c.source,
+            "value_low": _finite(c.value_low), "value_high": _finite(c.value_high)}
+
+
 def check_entries(audit) -> list[dict]:
     """Every check as ``results.json`` holds it (stable ``check_id``; infinite limits as null)."""
     many = len(audit.verdicts) > 1
-    return [{"check_id": c.id, "name": f"{c.name} ({v.species})" if many else c.name,
-             "species": v.species, "value": _finite(c.value), "unit": c.unit,
-             "target_low": _finite(c.target_low), "target_high": _finite(c.target_high),
-             "state": c.state, "reason": c.reason}
+    return [check_entry(c, v.species, f"{c.name} ({v.species})" if many else c.name)
             for v in audit.verdicts for c in v.checks]
 
 
+def risk_group_entry(metrics: dict) -> dict:
+    """A lamp model's indicative risk group for ``results.json`` (from ``audit.spectra``).
+
+    ``risk_group`` is an integer 0-3 (0 = exempt; index in
+    :data:`audit_lib.light.metrics.RISK_GROUPS`) or None when the model has no spectrum.
+    """
+    name = metrics.get("risk_group")
+    return {"risk_group": RISK_GROUPS.index(name) if name in RISK_GROUPS else None,
+            "risk_group_distance_m": _finite(metrics.get("risk_group_distance_m")),
+            "actinic_w_m2_at_distance": _finite(metrics.get("actinic_w_m2_at_distance"))}
+
+
 def lamp_entries(audit) -> list[dict]:
-    """Every lamp in place with its age and the one replacement forecast."""
+    """Every lamp in place with its age, the one replacement forecast and its model's risk group."""
     t = audit.lamps
     if t is None or not len(t):
         return []
@@ -63,7 +84,8 @@ def lamp_entries(audit) -> list[dict]:
              "hours_now": _finite(r.hours_now), "age_days": int(r.age_days),
              "last_uvi": _finite(r.last_value), "target_min_uvi": _finite(r.target_min),
              "replace_by": _iso(r.replace_by), "forecast_state": r.state,
-             "meter_corrected": bool(r.meter_corrected)}
+             "meter_corrected": bool(r.meter_corrected),
+             **risk_group_entry(audit.spectra.get(r.lamp_model, {}))}
             for r in t.itertuples(index=False)]
 
 
@@ -84,7 +106,8 @@ def enclosure_results(audit) -> dict:
             "zone": audit.zone.zone if audit.zone is not None else None,
             "verdict": audit.verdict, "reason": audit.reason,
             "recommendation": audit.recommendation, "checks": check_entries(audit),
-            "actions": action_entries(audit), "lamps": lamp_entries(audit)}
+            "actions": action_entries(audit), "lamps": lamp_entries(audit),
+            "plan": plan_entry(audit.plan, check_entry)}
 
 
 def report_data(audit) -> dict:
@@ -144,17 +167,29 @@ def summary(audit) -> HTMLBlock:
 def checks_table(audit) -> HTMLBlock:
     """Every check: figure, target range and unit as shown, state (word and colour), reason."""
     rows = []
-    for c in check_entries(audit):
+    for record, c in zip(audit.checks, check_entries(audit), strict=True):
         rows.append(f"<tr><th scope='row'>{escape(c['name'])}</th>"
-                    f"<td class='num'>{fmt.check_text(c)}</td>"
+                    f"<td class='num'>{fmt.check_text(c)}"
+                    f"<span class='small'>{escape(interval_text(record))}</span></td>"
                     f"<td class='num'>{escape(fmt.check_range_text(c))}</td>"
                     f"<td>{escape(fmt.check_unit(c))}</td>"
-                    f"<td>{_badge(c['state'])}</td><td>{escape(c['reason'])}</td></tr>")
+                    f"<td>{_badge(c['state'])}</td><td>{escape(c['reason'])}</td>"
+                    f"<td>{_basis_cell(record)}</td></tr>")
+    note = borderline_note(audit.checks)
     return HTMLBlock(
         '<div class="table-wrap"><table class="checks"><thead><tr><th scope="col">Check</th>'
         '<th scope="col" class="num">Figure</th><th scope="col" class="num">Target</th>'
         '<th scope="col">Unit</th><th scope="col">State</th><th scope="col">Reason</th>'
-        f"</tr></thead><tbody>{''.join(rows)}</tbody></table></div>")
+        '<th scope="col">Target rests on</th>'
+        f"</tr></thead><tbody>{''.join(rows)}</tbody></table></div>"
+        + (f"<p>{escape(note)}</p>" if note else ""))
+
+
+def _basis_cell(check) -> str:
+    """The check's basis (marked when from memory) and its source in words."""
+    mark = ' class="from-memory"' if check.basis == FROM_MEMORY else ""
+    return (f"<strong{mark}>{escape(check.basis or 'not stated')}</strong><br>"
+            f"<small>{escape(check.source)}</small>")
 
 
 def actions_list(audit) -> HTMLBlock:

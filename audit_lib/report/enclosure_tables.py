@@ -12,7 +12,7 @@ from html import escape
 
 import pandas as pd
 
-from audit_lib.judge.targets import BASKING_UVI_MAX
+from audit_lib.judge.targets import BORDERLINE, UVI_TOP_CHECKS
 from audit_lib.report import formats as fmt
 from audit_lib.report.enclosure import _badge, check_entries, points_table
 from audit_lib.report.formats import Column, HTMLBlock, header, html_table
@@ -210,14 +210,17 @@ def previous_html(audit, previous) -> HTMLBlock:
     if old is not None:
         rows.append({"what": "Verdict", "before": _badge(old.verdict),
                      "now": _badge(audit.verdict)})
-        bask = {d: next((c for c in check_entries(a) if c["check_id"] == BASKING_UVI_MAX),
+        bask = {d: next((c for c in check_entries(a) if c["check_id"] in UVI_TOP_CHECKS),
                         None) for d, a in (("before", old), ("now", audit))}
         cell = {d: (f"{fmt.check_text(c)} <span class='small'>(target "
                     f"{escape(fmt.check_range_text(c))})</span>" if c else fmt.MISSING)
                 for d, c in bask.items()}
-        rows.append({"what": header("Basking maximum", "uvi"), **cell})
+        top = bask["now"] or bask["before"]
+        words = fmt.CHECK_QUANTITIES.get(top["check_id"] if top else "", ("", "Highest"))[1]
+        rows.append({"what": header(words, "uvi"), **cell})
         rows.append({"what": "Checks outside their range",
-                     **{d: str(sum(c["state"] not in ("within range", "not enough data")
+                     **{d: str(sum(c["state"] not in ("within range", "not enough data",
+                                                      BORDERLINE)
                                    for c in check_entries(a)))
                         for d, a in (("before", old), ("now", audit))}})
     readings = previous.readings

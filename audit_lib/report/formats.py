@@ -78,6 +78,7 @@ QUANTITIES = {
 #: How each check of ``results.json`` is shown: its quantity and a header in words.
 CHECK_QUANTITIES = {
     "basking_uvi_max": ("uvi", "Basking maximum"),
+    "used_area_uvi_max": ("uvi", "Used-area maximum"),
     "animal_uvi_mean": ("uvi", "Animal's mean"),
     "refuge_floor_share": ("share_pct", "Low-UV refuge share of floor"),
     "light_hours": ("hours", "Hours of light"),

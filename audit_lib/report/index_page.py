@@ -12,7 +12,7 @@ import re
 from html import escape
 from importlib.resources import files
 
-from audit_lib.judge.targets import BASKING_UVI_MAX
+from audit_lib.judge.targets import BORDERLINE, USED_AREA_UVI_MAX, UVI_TOP_CHECKS
 from audit_lib.report import formats as fmt
 from audit_lib.report.cautions import CAUTIONS
 
@@ -37,12 +37,24 @@ def _link(href: str | None, text: str) -> str:
     return f'<a href="{escape(href, quote=True)}">{escape(text)}</a>'
 
 
+def _from_memory_mark(checks) -> str:
+    """A mark after a verdict that rests on target values from memory ("" if none does)."""
+    ids = list(dict.fromkeys(c.get("check_id", "") for c in checks
+                             if c.get("basis") == "from memory"))
+    if not ids:
+        return ""
+    title = "targets recalled, not read in their source: " + ", ".join(ids)
+    return (f' <span class="from-memory" title="{escape(title, quote=True)}">'
+            "from memory</span>")
+
+
 def _basking(outcome) -> str:
-    check = next((c for c in outcome.checks if c.get("check_id") == BASKING_UVI_MAX), None)
+    check = next((c for c in outcome.checks if c.get("check_id") in UVI_TOP_CHECKS), None)
     if check is None:
         return fmt.MISSING
+    where = " used area" if check.get("check_id") == USED_AREA_UVI_MAX else ""
     return (f"{fmt.check_text(check)} "
-            f'<span class="small">({escape(fmt.check_range_text(check))})</span>')
+            f'<span class="small">({escape(fmt.check_range_text(check))}{where})</span>')
 
 
 def _next_replacement(outcome) -> str:
@@ -61,7 +73,7 @@ def _row(outcome, pdfs) -> str:
         verdict = _badge("not run")
         notes = "not audited in this run"
     else:
-        verdict = _badge(outcome.verdict)
+        verdict = _badge(outcome.verdict) + _from_memory_mark(outcome.checks)
         off = [c for c in outcome.checks if c.get("state") not in (None, "within range")]
         notes = " ".join(escape(str(c.get("reason", ""))) for c in off[:3])
         if len(off) > 3:
@@ -119,6 +131,7 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
     pdfs = set(pdfs)
     logo = (f'<img class="report-logo" src="{escape(logo_data_uri, quote=True)}" alt="logo">'
             if logo_data_uri else "")
+    borderline = [o for o in done if o.verdict == BORDERLINE]
     facts_html = "".join(f"<div><dt>{escape(str(k))}</dt><dd>{escape(str(v))}</dd></div>"
                          for k, v in facts)
     parts = [
@@ -136,6 +149,7 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
         '<div class="site-summary">',
         f"<div><strong>{len(outcomes)}</strong> enclosures</div>",
         f"<div><strong>{len(done)}</strong> audited</div>",
+        f"<div><strong>{len(borderline)}</strong> borderline</div>",
         f"<div><strong>{len(failed)}</strong> could not be audited</div></div>",
     ]
     if overview is not None and overview.report:
@@ -148,7 +162,7 @@ def render_index(site_name: str, outcomes, *, facts=(), overview=None,
         '<div class="table-wrap"><table id="verdicts" class="data"><thead><tr>'
         '<th scope="col">Enclosure</th><th scope="col" class="num">Audit date</th>'
         '<th scope="col" class="num">Zone</th><th scope="col">Verdict and checks outside '
-        'range</th><th scope="col" class="num">Basking maximum [UVI] (target)</th>'
+        'range</th><th scope="col" class="num">Highest UV Index [UVI] (target)</th>'
         '<th scope="col" class="num">Next replacement</th>'
         '<th scope="col" class="num">Actions</th><th scope="col">Files</th></tr></thead>'
         "<tbody>",

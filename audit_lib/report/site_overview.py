@@ -25,7 +25,9 @@ from audit_lib.judge.targets import (
     ANIMAL_UVI_MEAN,
     BASKING_UVI_MAX,
     BELOW,
+    FROM_MEMORY,
     REFUGE_FLOOR_SHARE,
+    USED_AREA_UVI_MAX,
 )
 from audit_lib.pipeline.audit import DEFAULT_SPACING_M, audit_enclosure, choose_audit_date
 from audit_lib.report import formats as fmt
@@ -135,18 +137,34 @@ def _value(check, scale=1.0):
     return scale * float(check["value"])
 
 
+def from_memory_checks(entry: dict) -> list[str]:
+    """Ids of the checks of an enclosure entry whose target rests on values from memory."""
+    return list(dict.fromkeys(c["check_id"] for c in entry.get("checks", [])
+                              if c.get("basis") == FROM_MEMORY))
+
+
 def verdict_table(overview: SiteOverview) -> pd.DataFrame:
-    """One row per enclosure: verdict, zone, basking maximum, animal mean, refuge share."""
+    """One row per enclosure: verdict, zone, UV Index top, animal mean, refuge share, ...
+
+    ``from_memory`` lists the checks whose targets are from memory. The UV Index top is
+    the basking maximum of a basking-patch species (``basking_max_uvi``) or the used-area
+    maximum of a whole-enclosure gradient species (``used_area_max_uvi``); ``basking_state``
+    is that check's state.
+    """
     rows = []
     for e in overview.enclosures:
         bask = find_check(e, BASKING_UVI_MAX)
+        used = find_check(e, USED_AREA_UVI_MAX)
+        top = bask or used
         rows.append({
             "enclosure": e["id"], "name": e["name"], "verdict": e["verdict"],
             "zone": e.get("zone"), "basking_max_uvi": _value(bask),
-            "basking_state": bask["state"] if bask else "",
+            "used_area_max_uvi": _value(used),
+            "basking_state": top["state"] if top else "",
             "animal_mean_uvi": _value(find_check(e, ANIMAL_UVI_MEAN)),
             "refuge_share_pct": _value(find_check(e, REFUGE_FLOOR_SHARE), 100.0),
-            "checks_out_of_range": sum(c["state"] in (BELOW, ABOVE) for c in e["checks"])})
+            "checks_out_of_range": sum(c["state"] in (BELOW, ABOVE) for c in e["checks"]),
+            "from_memory": ", ".join(from_memory_checks(e))})
     for enclosure_id, error in overview.errors.items():
         rows.append({"enclosure": enclosure_id, "verdict": COULD_NOT_AUDIT, "name": error})
     if not rows:
@@ -155,9 +173,14 @@ def verdict_table(overview: SiteOverview) -> pd.DataFrame:
 
 
 def plot_basking_ranges(overview: SiteOverview):
-    """Basking maximum UV Index of each enclosure against its zone's range (the check's)."""
-    found = [(e["id"], c) for e in overview.enclosures
-             if (c := find_check(e, BASKING_UVI_MAX)) is not None]
+    """UV Index top of each enclosure against its zone's range (the check's).
+
+    The basking maximum of a basking patch, the used-area maximum of a gradient (marked).
+    """
+    found = [(e["id"] if c["check_id"] == BASKING_UVI_MAX else f"{e['id']} (gradient)", c)
+             for e in overview.enclosures
+             if (c := find_check(e, BASKING_UVI_MAX) or find_check(e, USED_AREA_UVI_MAX))
+             is not None]
     fig, ax = new_figure(7.5, max(2.5, 0.32 * len(found) + 1.0))
     for i, (_, c) in enumerate(found):
         high = c["target_high"] if c["target_high"] is not None else c["target_low"]
@@ -169,7 +192,8 @@ def plot_basking_ranges(overview: SiteOverview):
                     markersize=8, markeredgecolor="black")
     ax.set_yticks(np.arange(len(found)), [i for i, _ in found], fontsize=8)
     ax.invert_yaxis()
-    ax.set_xlabel("basking maximum UV Index [-]  (band: zone range; ◀ below, ● within, ▶ above)")
+    ax.set_xlabel("highest UV Index [-] at the basking patch, or over the area used (gradient)\n"
+                  "(band: zone range, from memory; ◀ below, ● within, ▶ above)")
     ax.grid(axis="x", alpha=0.3)
     ax.set_xlim(left=0)
     return fig
@@ -213,7 +237,8 @@ def verdicts_html(overview: SiteOverview) -> HTMLBlock:
     mixed = len(audit_dates(overview)) > 1
     rows = [{"enclosure": f"{e['id']} – {e['name']}", "date": e.get("audit_date"),
              "zone": e.get("zone"), "verdict": _badge(e["verdict"]),
-             "bask": _check_cell(e, BASKING_UVI_MAX, with_range=True),
+             "bask": _check_cell(e, BASKING_UVI_MAX if find_check(e, BASKING_UVI_MAX)
+                                 else USED_AREA_UVI_MAX, with_range=True),
              "mean": _check_cell(e, ANIMAL_UVI_MEAN),
              "refuge": _check_cell(e, REFUGE_FLOOR_SHARE),
              "off": sum(c["state"] in (BELOW, ABOVE) for c in e["checks"])}
@@ -225,7 +250,8 @@ def verdicts_html(overview: SiteOverview) -> HTMLBlock:
     columns = [Column("enclosure", "Enclosure"),
                *([Column("date", "Audit date", "date")] if mixed else []),
                Column("zone", "Zone", "count"), Column("verdict", "Verdict", "html"),
-               Column("bask", "Basking maximum [UVI] (target)", "html_num"),
+               Column("bask", "Highest UV Index [UVI] (target; basking or used area)",
+                      "html_num"),
                Column("mean", header("Animal's mean", "uvi"), "html_num"),
                Column("refuge", header("Low-UV refuge share of floor", "share_pct"), "html_num"),
                Column("off", "Checks outside range", "count")]

@@ -31,6 +31,7 @@ STATE_COLOURS = {
     "within range": PALETTE["bluish green"],
     "below range": PALETTE["orange"],
     "above range": PALETTE["vermillion"],
+    "borderline": PALETTE["reddish purple"],
     "not enough data": "#999999",
 }
 

@@ -20,7 +20,7 @@ STATE_SYMBOLS = {
     "meets targets": "\u2713",
     "needs attention": "!",
 }
-COLUMNS = ("check", "state", "value", "target", "unit", "reason", "source", "status")
+COLUMNS = ("check", "state", "value", "target", "unit", "reason", "basis", "source", "status")
 
 
 def _number(x) -> str:
@@ -48,7 +48,7 @@ def verdict_frame(verdict):
     Returns
     -------
     pandas.DataFrame
-        Columns ``check, state, value, target, unit, reason, source, status`` (text, for
+        Columns ``check, state, value, target, unit, reason, basis, source, status`` (text, for
         display; the numbers stay in the verdict's :class:`~audit_lib.judge.targets.Check` records).
     """
     import pandas as pd
@@ -61,6 +61,7 @@ def verdict_frame(verdict):
             "target": _target(c),
             "unit": c.unit,
             "reason": c.reason,
+            "basis": c.basis,
             "source": c.source,
             "status": c.status,
         }

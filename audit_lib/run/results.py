@@ -23,14 +23,15 @@ from audit_lib.report.formats import check_rounded
 #: Columns of ``results.csv`` (one row per check; one row per enclosure that failed).
 CSV_COLUMNS = ("site", "audit_date", "enclosure", "enclosure_name", "verdict", "check",
                "check_id", "value", "unit", "target_low", "target_high", "state", "reason",
-               "error")
+               "error", "basis", "source")
 #: Keys of a check in ``results.json`` (docs/batch-reports.md).
 CHECK_KEYS = ("check_id", "name", "species", "value", "unit", "target_low", "target_high",
-              "state", "reason")
+              "state", "reason", "basis", "source",
+              "value_low", "value_high")
 #: Keys of an enclosure entry beyond the outcome's own (from the workbook's results), with
 #: their value when the workbook gave none.
 RESULT_KEYS = {"audit_date": None, "zone": None, "reason": None, "recommendation": None,
-               "actions": [], "lamps": []}
+               "actions": [], "lamps": [], "plan": None}
 
 
 def _clean(value):
@@ -82,7 +83,8 @@ def results_csv(doc: dict) -> str:
             writer.writerow(base)  # an enclosure not audited in any run has no row
         for check in enc["checks"]:
             row = dict(base, check=check["name"], check_id=check["check_id"],
-                       unit=check["unit"], state=check["state"], reason=check["reason"])
+                       unit=check["unit"], state=check["state"], reason=check["reason"],
+                       basis=check.get("basis") or "", source=check.get("source") or "")
             row.update({k: _shown(check, k) for k in ("value", "target_low", "target_high")})
             writer.writerow(row)
     return buf.getvalue()

@@ -15,6 +15,7 @@ import io
 import time
 
 from audit_lib.errors import AuditError, AuditWarning, InputError
+from audit_lib.pipeline.plan import find_plan
 from audit_lib.pipeline.planner import DEFAULT_SHAPE, PlanResult, WhatIfPlanner
 from audit_lib.pipeline.scenarios import UV_PEAK_LIMIT_NM
 from audit_lib.report.daily import sun_scale_for_zone
@@ -324,6 +325,10 @@ class WhatIfPanel:
         }
         self.scenario_name = control(w.Text, "Scenario name", value="my-plan")
         self.save_button = w.Button(description="Save as scenario", icon="save")
+        self.plan_button = w.Button(description="Apply the plan", icon="check",
+                                    tooltip="the smallest set of changes that brings every "
+                                    "check within range")
+        self.plan = None
         self.status = w.HTML()
         self.map_view = MapView(result, planner.scene())
         self.daily_view = DailyView(result)
@@ -338,10 +343,11 @@ class WhatIfPanel:
             widget.observe(lambda change, key=key: self._changed(key, change["new"]),
                            names="value")
         self.save_button.on_click(lambda _: self.save())
+        self.plan_button.on_click(lambda _: self.apply_plan())
         self._enable()
         self.show(result)
         left = w.VBox([*self.controls.values(), w.HBox([self.scenario_name]),
-                       self.save_button, self.status])
+                       self.save_button, self.plan_button, self.status])
         right = w.VBox([self.map_image, self.daily_image, self.summary])
         self.widget = w.VBox([w.HBox([left, right]),
                               w.HTML("<h4>Recommended changes</h4>"), self.recommendation,
@@ -432,6 +438,34 @@ class WhatIfPanel:
         self.status.value = (f"Updated in {1e3 * (t1 - t0):.0f} ms, drawn in "
                              f"{1e3 * (t2 - t1):.0f} ms.")
         return {"compute_ms": 1e3 * (t1 - t0), "redraw_ms": 1e3 * (t2 - t1)}
+
+    def apply_plan(self):
+        """Search the plan from the present settings, apply it and show it; returns the plan.
+
+        The search (:func:`audit_lib.pipeline.plan.find_plan`) leaves the planner at the
+        plan; the controls follow it and the status line says what the plan achieves.
+        """
+        try:
+            self.plan = find_plan(self.planner)
+        except AuditError as exc:
+            self.status.value = f"<span style='color:#D55E00'>{html.escape(str(exc))}</span>"
+            return None
+        result = self.planner.result
+        self._busy = True
+        try:
+            c = self.planner.config
+            if c.on is not None:
+                self.controls["own_times"].value = True
+                for key in ("on", "off"):
+                    self.controls[key].value = getattr(c, key)
+                self.controls["ramp_minutes"].value = int(c.ramp_minutes)
+        finally:
+            self._busy = False
+        self._refresh_controls(everything=True)
+        self.show(result)
+        steps = " ".join(a.text for a in self.plan.actions)
+        self.status.value = html.escape(f"{self.plan.reason} {steps}".strip())
+        return self.plan
 
     def show(self, result: PlanResult) -> None:
         """Redraw every output for ``result`` (artists updated, figures kept)."""

@@ -24,6 +24,7 @@ from pydantic import (
 )
 
 from audit_lib.errors import AuditWarning, InputError
+from audit_lib.judge import defaults as d
 from audit_lib.light.units import to_si
 
 FORMAT_VERSION = 1
@@ -149,6 +150,9 @@ class Meter(Record):
     type: Literal["uv_index_meter", "uvb_meter", "uva_meter", "lux_meter", "spectroradiometer"]
     calibration_date: dt.date | None = None
     spectral_response: str | None = None
+    #: "± %" of a reading (its calibration certificate); None: the project default of the
+    #: meter type (audit_lib.judge.uncertainty.METER_UNCERTAINTY_PCT) [%].
+    uncertainty_pct: float | None = Field(default=None, gt=0, le=100)
     note: str = ""
 
 
@@ -487,11 +491,43 @@ class Species(Record):
     note: str = ""
 
 
+class Targets(Record):
+    """The site's own targets instead of the project defaults: the ``[targets]`` table.
+
+    Each key left out keeps the project default (:mod:`audit_lib.judge.defaults`); a check on
+    a value given here says so (basis "site setting"). ``keeper_time`` takes a unit
+    (``"45 min"``), the others are plain numbers: UV Index, shares 0-1, hours.
+    """
+
+    refuge_uvi_max: float = Field(default=d.REFUGE_UVI_MAX, gt=0, le=3)
+    refuge_min_share: Fraction = d.REFUGE_MIN_SHARE
+    light_hours_min: float = Field(default=d.LIGHT_HOURS_RANGE[0], ge=0, le=24)
+    light_hours_max: float = Field(default=d.LIGHT_HOURS_RANGE[1], ge=0, le=24)
+    short_uvb_tolerance: Fraction = d.SHORT_UVB_TOLERANCE
+    keeper_time_s: float = Field(default=d.KEEPER_TIME_S, gt=0, le=28800)  # up to 8 h
+
+    @field_validator("refuge_min_share", "short_uvb_tolerance", mode="before")
+    @classmethod
+    def _share(cls, value):
+        if isinstance(value, (int, float)) and not 0 <= value <= 1:
+            raise ValueError(f"{value:g} is not a share from 0 to 1 || write 0.25 for 25 %")
+        return value
+
+    @model_validator(mode="after")
+    def _hours_in_order(self):
+        if self.light_hours_min > self.light_hours_max:
+            raise ValueError(f"light_hours_min ({self.light_hours_min:g} h) is above "
+                             f"light_hours_max ({self.light_hours_max:g} h) || give the "
+                             "shorter day first")
+        return self
+
+
 class SiteFile(Record):
     """The whole ``site.toml``."""
 
     format_version: Literal[1]
     site: SiteInfo
+    targets: Targets | None = None
     meters: list[Meter] = []
     lamp_models: list[LampModel] = []
     enclosures: list[Enclosure] = []
