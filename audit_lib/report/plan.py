@@ -73,9 +73,10 @@ def plan_table(audit) -> _HTML:
             f"<td class='num'>{_fmt(c, c.target_low)} – {_fmt(c, c.target_high)}</td></tr>")
     return _HTML(
         f'<div class="plan"><p>{escape(plan.reason)}</p><ul class="actions">{actions}</ul>'
-        '<div class="table-wrap"><table class="checks"><thead><tr><th>Check</th><th class="num">Now</th><th>State</th>'
-        '<th class="num">With the plan</th><th>State</th><th>Unit</th>'
-        f'<th class="num">Target</th></tr></thead><tbody>{"".join(rows)}</tbody></table></div></div>')
+        '<div class="table-wrap"><table class="checks"><thead><tr><th>Check</th>'
+        '<th class="num">Now</th><th>State</th><th class="num">With the plan</th><th>State</th>'
+        '<th>Unit</th><th class="num">Target</th></tr></thead>'
+        f'<tbody>{"".join(rows)}</tbody></table></div></div>')
 
 
 __all__ = ["BORDERLINE_EXPLAINED", "borderline_note", "interval_text", "plan_table"]
