@@ -34,6 +34,14 @@ def _fmt(check, value) -> str:
     return fmt.text(value, _quantity(check))
 
 
+def _target(check) -> str:
+    """The target range as the checks table shows it ("2.9–7.4", "at least 30")."""
+    return fmt.check_range_text({"check_id": check.id, "unit": check.unit,
+                                 "value": check.value, "state": check.state,
+                                 "target_low": check.target_low,
+                                 "target_high": check.target_high})
+
+
 def interval_text(check) -> str:
     """``"(90 %: low–high)"`` beside a figure; empty without an interval or of zero width."""
     low, high = check.value_low, check.value_high
@@ -70,7 +78,7 @@ def plan_table(audit) -> _HTML:
             f"{escape(interval_text(a)) if a else ''}</td>"
             f"<td>{_badge(a.state) if a else ''}</td>"
             f"<td>{escape(fmt.QUANTITIES[_quantity(c)].unit)}</td>"
-            f"<td class='num'>{_fmt(c, c.target_low)} – {_fmt(c, c.target_high)}</td></tr>")
+            f"<td class='num'>{escape(_target(c))}</td></tr>")
     return _HTML(
         f'<div class="plan"><p>{escape(plan.reason)}</p><ul class="actions">{actions}</ul>'
         '<div class="table-wrap"><table class="checks"><thead><tr><th>Check</th>'
