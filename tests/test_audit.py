@@ -228,3 +228,28 @@ def test_sun_drawn_in_the_native_range_when_known():
     assert result.natural["latitude_deg"] == native[0]
     assert result.natural["daily_sed"] == pytest.approx(
         clear_sky_daily_dose_sed(native[0], result.audit_date))
+
+
+def test_named_positions_leave_failed_emitters_out_as_the_maps_do():
+    """One model for maps and named positions (consistency): at a map cell's centre, the
+    point model with the site's failed emitters gives the map's value, and the audit's
+    modelled readings use that same model (superposition of incoherent sources)."""
+    from audit_lib.scene.maps import point_values
+
+    site = load_site(DEMO)
+    enclosure = next(e.id for e in site.records.enclosures
+                     if any(p.failed_emitters for p in e.lamps))
+    scene = build_scene(site, enclosure)
+    failed = failed_labels(site, enclosure)
+    maps = compute_maps(scene, spacing_m=0.05, failed=failed)
+    floor = maps["floor"]
+    iy, ix = np.unravel_index(np.argmax(floor.values["uvi"]), floor.values["uvi"].shape)
+    at = {"cell": (floor.x_m[ix], floor.y_m[iy], floor.surface.z_m)}
+    with_failed = point_values(scene, at, failed=failed)["uvi"].iloc[0]
+    all_working = point_values(scene, at)["uvi"].iloc[0]
+    assert with_failed == pytest.approx(floor.values["uvi"][iy, ix], rel=1e-6)  # float32 maps
+    assert with_failed < all_working
+    audit = audit_enclosure(site, enclosure, with_failures=False, spacing_m=0.05)
+    named = audit.points.dropna(subset=["x_m"])
+    again = point_values(scene, named[["position", "x_m", "y_m", "z_m"]], failed=failed)
+    assert np.allclose(named["uvi"].to_numpy(), again["uvi"].to_numpy(), rtol=1e-9)

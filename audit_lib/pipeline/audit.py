@@ -263,7 +263,7 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
     raw_maps = compute_maps(scene, spacing_m=spacing_m, failed=failed)
     measured = steps.measured_uvi(site, enclosure_id, day)
     positions = steps.measuring_positions(record, raw_maps, measured["position"])
-    points = point_values(scene, positions) if len(positions) else positions
+    points = point_values(scene, positions, failed=failed) if len(positions) else positions
     points = points.merge(measured, on="position", how="left") \
         if len(points) else points.assign(measured_uvi=pd.Series(dtype=float))
     calibration = steps.calibration_factor(points) if len(points) else 1.0

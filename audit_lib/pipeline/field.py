@@ -37,6 +37,7 @@ import pandas as pd
 
 from audit_lib.history.store import find_install, lamp_hours
 from audit_lib.pipeline import steps
+from audit_lib.pipeline.assemble import failed_labels
 from audit_lib.pipeline.audit import DEFAULT_SPACING_M, audit_enclosure
 from audit_lib.pipeline.findings import collect_notes
 from audit_lib.pipeline.forecast import lamp_forecasts, site_lamp_installs
@@ -235,7 +236,8 @@ def _enclosure_field(site, enclosure_id: str, day: dt.date, spacing_m: float
     lamps_on = record.lamps[0].id if len(record.lamps) == 1 else ""
     places = _sheet_positions(record, audit, lamps_on)
     points = places[["x_m", "y_m", "z_m"]].to_numpy(float)
-    per_lamp = steps.per_lamp_values(audit.scene, points, (), quantities=("uvi",))["uvi"]
+    per_lamp = steps.per_lamp_values(audit.scene, points, failed_labels(site, enclosure_id),
+                                     quantities=("uvi",))["uvi"]
     expected = np.zeros(len(places))
     for row in lamps.itertuples(index=False):
         share = np.asarray(per_lamp[row.lamp], float)

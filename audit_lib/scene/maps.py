@@ -435,7 +435,8 @@ def statistics_table(maps: Mapping[str, SurfaceMap], uvi_range=None, refuge_belo
     return pd.DataFrame(rows)
 
 
-def point_values(enclosure: Enclosure, positions, quantities=None, normal=(0.0, 0.0, 1.0)):
+def point_values(enclosure: Enclosure, positions, quantities=None, normal=(0.0, 0.0, 1.0),
+                 failed=()):
     """Weighted quantities at named positions (where the keeper measured).
 
     Parameters
@@ -448,6 +449,8 @@ def point_values(enclosure: Enclosure, positions, quantities=None, normal=(0.0, 
         Default ``metrics.MAP_QUANTITIES``.
     normal : array_like, optional
         Sensor normal, default facing up [-].
+    failed : iterable of str, optional
+        Failed emitter or lamp labels, left out as in :func:`compute_maps`.
 
     Returns
     -------
@@ -472,7 +475,8 @@ def point_values(enclosure: Enclosure, positions, quantities=None, normal=(0.0, 
     if frame[["x_m", "y_m", "z_m"]].isna().any().any():
         raise InputError("positions need x_m, y_m and z_m", field="positions")
     ev = evaluate_points(
-        enclosure, frame[["x_m", "y_m", "z_m"]].to_numpy(float), quantities, normal=normal
+        enclosure, frame[["x_m", "y_m", "z_m"]].to_numpy(float), quantities, normal=normal,
+        failed=failed,
     )
     for q, v in ev.values.items():
         frame[q] = v
