@@ -77,9 +77,9 @@ def test_designed_table_escapes_text_and_right_aligns_numbers():
 def test_machine_paths_are_made_relative_or_cut():
     """Known folders become their name (site) or nothing (output); other absolute paths are
     cut to the file name; data URIs and URLs are left alone."""
-    known = {"/home/ann/sites/park": "park", "/home/ann/out": ""}
-    text = ('bad row in /home/ann/sites/park/readings/a.csv; {"results_json": '
-            '"/home/ann/out/results.json"} File "/usr/lib/python3/x.py" '
+    known = {"/data/ann/sites/park": "park", "/data/ann/out": ""}
+    text = ('bad row in /data/ann/sites/park/readings/a.csv; {"results_json": '
+            '"/data/ann/out/results.json"} File "/usr/lib/python3/x.py" '
             'src="data:image/jpeg;base64,/9j/4AAQ/home/abc" https://example.org/tmp/a')
     got = strip_machine_paths(text, known)
     assert "park/readings/a.csv" in got and '"results.json"' in got and '"x.py"' in got

@@ -25,8 +25,8 @@ def strip_machine_paths(text: str, known: dict | None = None) -> str:
     text : str
         A page, a message or a note.
     known : dict of str to str, optional
-        Folder (absolute) to what it is shown as: e.g. ``{"/home/a/sites/park": "park",
-        "/home/a/out": ""}``. A path inside a known folder keeps its part below it
+        Folder (absolute) to what it is shown as: e.g. ``{"/data/a/sites/park": "park",
+        "/data/a/out": ""}``. A path inside a known folder keeps its part below it
         (``park/readings/2026.csv``, ``reports/rh-01.html``).
     """
     for folder, label in sorted((known or {}).items(), key=lambda kv: -len(str(kv[0]))):
