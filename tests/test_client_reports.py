@@ -84,7 +84,7 @@ def test_machine_paths_are_made_relative_or_cut():
     got = strip_machine_paths(text, known)
     assert "park/readings/a.csv" in got and '"results.json"' in got and '"x.py"' in got
     assert "base64,/9j/4AAQ/home/abc" in got and "https://example.org/tmp/a" in got
-    assert "/home/ann" not in got and "/usr/lib" not in got
+    assert "/data/ann" not in got and "/usr/lib" not in got
 
 
 # --- previous audit -------------------------------------------------------------------------
