@@ -269,7 +269,6 @@ def placed_groups(enclosure: Enclosure) -> list[tuple[PlacedLamp, SourceGroup]]:
                         labels=labels,
                         positions_m=g.positions_m @ rot.T + origin,
                         axes=g.axes @ rot.T,
-                        front=rot @ g.front,
                     ),
                 )
             )

@@ -142,7 +142,6 @@ def group_factors(
     masks = [np.empty((n_src, n_pts), bool) for _ in screens]
     sx, sy, sz = (pos[:, i : i + 1] for i in range(3))
     ax, ay, az = (axes[:, i : i + 1] for i in range(3))
-    fx, fy, fz = (float(c) for c in group.front)
     w = np.asarray(group.weights, float)[:, None]
     n_exp = float(group.distance_exponent)
     width0 = min(_BLOCK, n_pts)
@@ -173,9 +172,6 @@ def group_factors(
         _dot(bx, by, bz, ax, ay, az, out=bct, tmp=btmp)
         bct *= binv
         rel = _pattern(group, bct)
-        if group.front_factor != 1.0:
-            _dot(bx, by, bz, fx, fy, fz, out=btmp, tmp=br2)
-            rel = rel * np.where(btmp > 0, group.front_factor, 1.0)
         block = factor[:, sl] if keep else spare[:, :k]
         if n_exp == 2.0:
             np.multiply(binv, binv, out=block)
@@ -207,7 +203,6 @@ def _straight_down(group: SourceGroup, normal, pts) -> bool:
         normal == (0.0, 0.0, 1.0)
         and not isinstance(group.pattern, (str, AngularPattern))
         and group.distance_exponent == 2.0
-        and group.front_factor == 1.0
         and group.valid_range_m is None
         and bool(np.all(group.axes == np.array([0.0, 0.0, -1.0])))
         and pts.size > 0

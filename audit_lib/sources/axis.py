@@ -59,8 +59,7 @@ def group_axis_factor(group: SourceGroup, distance_m: float) -> float:
         relative = np.sqrt(np.maximum(1.0 - cos_axis**2, 0.0))
     else:
         relative = pattern_relative_intensity(group.pattern, cos_axis)
-    front = np.where(ray @ group.front > 0, group.front_factor, 1.0)
-    return float(np.sum(group.weights * relative * front * cos_incidence
+    return float(np.sum(group.weights * relative * cos_incidence
                         / r**group.distance_exponent))
 
 

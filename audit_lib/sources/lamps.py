@@ -404,11 +404,6 @@ class SourceGroup:
         The spectral distribution that gave ``quantities`` (for spectral screens).
     distance_exponent : float
         n in 1/r^n (2 = inverse-square law).
-    front_factor : float
-        Multiplier on intensity towards the lamp's front (``front``); 1 for every lamp
-        model since tubes lost their reflector factor (kept for the geometry kernel).
-    front : numpy.ndarray
-        (3,) the lamp's front direction (-z of the lamp frame until placed).
     valid_range_m : tuple of float or None
         Distances where a measured lamp's law holds [m].
     """
@@ -423,8 +418,6 @@ class SourceGroup:
     wavelength_nm: np.ndarray | None = None
     spectral: np.ndarray | None = None
     distance_exponent: float = 2.0
-    front_factor: float = 1.0
-    front: np.ndarray = field(default_factory=lambda: np.array([0.0, 0.0, -1.0]))
     valid_range_m: tuple[float, float] | None = None
     extra: dict = field(default_factory=dict)
 
@@ -662,6 +655,6 @@ def lamp_spectrum(lamp, distance_m: float = 1.0):
     grid = np.unique(np.concatenate([g.wavelength_nm for g in groups]))
     total = np.zeros_like(grid)
     for g in groups:
-        scale = np.sum(g.weights) * g.front_factor / distance_m**g.distance_exponent
+        scale = np.sum(g.weights) / distance_m**g.distance_exponent
         total += scale * np.interp(grid, g.wavelength_nm, g.spectral, left=0.0, right=0.0)
     return Spectrum(grid, total, name=lamp.name, source="lamp model, far field on axis")
