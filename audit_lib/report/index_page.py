@@ -60,7 +60,7 @@ def _basking(outcome) -> str:
 def _next_replacement(outcome) -> str:
     dates = sorted(lamp["replace_by"] for lamp in outcome.results.get("lamps", [])
                    if lamp.get("replace_by"))
-    return fmt.date_text(dates[0]) if dates else "none forecast"
+    return fmt.date_text(dates[0]) if dates else "no forecast"
 
 
 def _row(outcome, pdfs) -> str:
