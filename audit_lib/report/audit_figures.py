@@ -12,10 +12,17 @@ import math
 import numpy as np
 
 from audit_lib.report.daily import plot_daily_uvi, plot_monthly_doses
-from audit_lib.report.decay import plot_lamp_decay
-from audit_lib.report.maps import MAP_LABELS, plot_coverage_distribution, plot_surface_map
+from audit_lib.report.decay import plot_lamp_decays as plot_decay_panels
+from audit_lib.report import formats as fmt
+from audit_lib.report.maps import (
+    MAP_LABELS,
+    VITAMIN_D_SHAPE_TOLERANCE,
+    plot_coverage_distribution,
+    plot_surface_map,
+    vitamin_d_per_uvi,
+)
 from audit_lib.report.spectrum import plot_spectrum
-from audit_lib.report.style import place_axes
+from audit_lib.report.style import FIGURE_RC, place_axes
 
 
 def plot_maps(audit, quantity: str = "uvi"):
@@ -32,30 +39,61 @@ def plot_maps(audit, quantity: str = "uvi"):
         A map quantity (``uvi``, ``vitamin_d_w_m2``, ``uvb_w_m2``, ``illuminance_lux``).
     """
     import matplotlib.pyplot as plt
-
+    from matplotlib.ticker import MaxNLocator
 
     maps = list(audit.maps.values())
     cols = min(2, len(maps))
     rows = math.ceil(len(maps) / cols)
-    fig, axes = plt.subplots(rows, cols, figsize=(4.4 * cols, 3.2 * rows), dpi=96,
-                             squeeze=False)
-    # fixed margins [in]: tick and axis labels left and below, titles above, the bar right
-    place_axes(fig, 0.6, 0.5, 1.05, 0.35, wspace=0.3, hspace=0.35)
     vmax = max(float(np.nanmax(m.values[quantity])) for m in maps) or 1.0
     uvi_range = (audit.zone.max_uvi_low, audit.zone.max_uvi_high) \
         if quantity == "uvi" and audit.zone is not None else None
-    for ax, m in zip(axes.flat, maps, strict=False):
+    width, height = 4.4 * cols, 3.2 * rows
+    with plt.rc_context(FIGURE_RC):
+        fig = plt.figure(figsize=(width, height), dpi=96)
+        # fixed margins [in]: tick and axis labels left and below, titles above, the bar right
+        place_axes(fig, 0.6, 0.5, 1.05, 0.35, wspace=0.3, hspace=0.35)
+        grid = fig.add_gridspec(rows, cols)
+        # only as many panels as surfaces: an unused, hidden panel still costs its making
+        axes = [fig.add_subplot(grid[i // cols, i % cols]) for i in range(len(maps))]
+        # one bar for the shared scale (one per panel repeated it, a third of the drawing)
+        cax = fig.add_axes([1.0 - 0.85 / width, 0.5 / height, 0.12 / width,
+                            1.0 - 0.85 / height])
+    for ax, m in zip(axes, maps, strict=True):
         plot_surface_map(m, quantity, uvi_range, audit.scene, ax, vmax=vmax, colorbar=False)
-    for ax in list(axes.flat)[len(maps):]:
-        ax.set_visible(False)
-    # one bar for the shared scale (one per panel repeated it and cost a third of the drawing)
-    used = list(axes.flat)[:len(maps)]
-    width, height = fig.get_size_inches()
-    cax = fig.add_axes([1.0 - 0.85 / width, 0.5 / height, 0.12 / width,
-                        1.0 - 0.85 / height])
-    bar = fig.colorbar(used[0].images[0], cax=cax)
+    bar = fig.colorbar(axes[0].images[0], cax=cax)
+    bar.locator = MaxNLocator(5)
+    bar.update_ticks()
     bar.set_label(MAP_LABELS.get(quantity, quantity))
     return fig
+
+
+def vitamin_d_maps(audit):
+    """The vitamin-D-weighted irradiance maps where their pattern differs from the UV Index's.
+
+    Where the vitamin-D maps are the UV Index maps times one factor to within
+    :data:`audit_lib.report.maps.VITAMIN_D_SHAPE_TOLERANCE` of their colour scale
+    (:func:`audit_lib.report.maps.vitamin_d_per_uvi`: every UV lamp has one spectrum), they
+    would repeat the UV Index maps, so one sentence gives the factor instead.
+
+    Returns
+    -------
+    matplotlib.figure.Figure or audit_lib.report.formats.HTMLBlock
+        The maps (:func:`plot_maps`; closed to pyplot, so a notebook shows it once, as the
+        cell's value), or the sentence.
+    """
+    import matplotlib.pyplot as plt
+
+    factor, gap = vitamin_d_per_uvi(audit.maps.values())
+    if gap > VITAMIN_D_SHAPE_TOLERANCE:
+        fig = plot_maps(audit, "vitamin_d_w_m2")
+        plt.close(fig)
+        return fig
+    if factor <= 0:
+        return fmt.note("No vitamin-D-weighted irradiance on these surfaces.")
+    return fmt.note(f"Vitamin-D-weighted irradiance is {fmt.text(factor, 'w_m2', unit=True)} "
+                    "per UV Index unit all over these surfaces, so its maps would be the UV "
+                    "Index maps above with that factor; the surface table gives each "
+                    "surface's mean.")
 
 
 def plot_daily(audit):
@@ -69,22 +107,31 @@ def plot_daily(audit):
         if "enclosure_uvi" in daily else {}
     sun = daily.reset_index()[["time_h", "sun_uvi"]].rename(columns={"sun_uvi": "uvi"})
     ax = plot_daily_uvi(curves, zone=audit.zone, sun=sun,
-                        sun_label=f"sun at {audit.natural['latitude_deg']:.1f}°, clear sky",
-                        title=f"UV Index through {audit.audit_date.isoformat()}")
+                        sun_label=f"sun at {audit.natural['latitude_deg']:.1f}°, clear sky")
     return ax.figure
 
 
 def plot_monthly(audit):
-    """Daily erythemal dose and hours of light by month (:mod:`audit_lib.report.daily`)."""
+    """Daily erythemal dose at the basking maximum by month (:mod:`audit_lib.report.daily`)."""
     if audit.monthly is None:
         return None
-    result = plot_monthly_doses(audit.monthly, title="At the basking maximum")
+    result = plot_monthly_doses(audit.monthly)
     return getattr(result, "figure", result)
 
 
 def plot_lamp_decays(audit):
-    """Each lamp's readings over time with both decay fits and the forecast."""
-    return [plot_lamp_decay(d, today=audit.audit_date) for d in audit.decays]
+    """Readings over time with both decay fits and the forecast, one panel per lamp.
+
+    Only lamps read on at least two days are drawn: a single reading and its target are
+    the lamps table's "latest reading" and "lowest acceptable" already.
+
+    Returns
+    -------
+    matplotlib.figure.Figure or None
+        None when no lamp has two readings.
+    """
+    drawn = [d for d in audit.decays if len(d.points) >= 2]
+    return plot_decay_panels(drawn, today=audit.audit_date)
 
 
 def plot_failure_study(audit):
@@ -158,6 +205,8 @@ def png_bytes(fig) -> bytes | None:
     pixels = canvas.buffer_rgba()
     image = Image.frombuffer("RGBA", (pixels.shape[1], pixels.shape[0]), pixels, "raw",
                              "RGBA", 0, 1)
+    if fig.get_facecolor()[3] == 1.0:  # an opaque page: RGB, a quarter less to compress
+        image = image.convert("RGB")
     out = io.BytesIO()
     image.save(out, format="png", compress_level=1, dpi=(fig.dpi, fig.dpi))
     return out.getvalue()

@@ -92,7 +92,7 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
                 label=str(name))  # fmt: skip
         top = max(top, float(series.max()))
     ax.set_xlim(0, 24)
-    ax.set_xticks(range(0, 25, 3))
+    ax.set_xticks(range(0, 25, 6))
     ax.set_ylim(0, max(1.0, top * 1.1))
     ax.set_xlabel("local time [h]")
     ax.set_ylabel("UV Index [-]")
@@ -104,12 +104,15 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
 
 
 def plot_monthly_doses(table, *, ax=None, title=""):
-    """Daily erythemal dose and hours of light month by month.
+    """Daily erythemal dose month by month, beside the clear-sky sun's.
+
+    The hours of light are left to the month-by-month table (a second value axis for them
+    cost as much to draw as the dose axes).
 
     Parameters
     ----------
     table : pandas.DataFrame
-        :func:`audit_lib.day.dose.monthly_table` output (``sed``, ``lit_hours``, optionally
+        :func:`audit_lib.day.dose.monthly_table` output (``sed``, optionally
         ``sun_clear_sky_sed``).
     ax : matplotlib.axes.Axes, optional
         Axes to draw on.
@@ -119,9 +122,9 @@ def plot_monthly_doses(table, *, ax=None, title=""):
     Returns
     -------
     matplotlib.axes.Axes
-        The dose axes (the hours axis is its twin).
+        The dose axes.
     """
-    if ax is None:  # a twin axis and the legend beside the axes
+    if ax is None:  # the legend beside the axes
         _, ax = new_figure(9.0, 4.0, right_in=2.7)
     months = np.asarray(table.index, dtype=int)
     ax.bar(months, table["sed"], color=PALETTE["blue"], width=0.6, label="enclosure [SED/day]")
@@ -132,15 +135,7 @@ def plot_monthly_doses(table, *, ax=None, title=""):
     ax.set_xticklabels(["J", "F", "M", "A", "M", "J", "J", "A", "S", "O", "N", "D"][: len(months)])
     ax.set_xlabel("month")
     ax.set_ylabel("erythemal dose [SED per day]")
-    hours = ax.twinx()
-    hours.plot(months, table["lit_hours"], color=PALETTE["orange"], linestyle="-.", marker="s",
-               markersize=3, label="hours of light")  # fmt: skip
-    hours.set_ylabel("hours of light [h]")
-    hours.set_ylim(0, 24)
-    lines = ax.get_legend_handles_labels()
-    more = hours.get_legend_handles_labels()
-    ax.legend(lines[0] + more[0], lines[1] + more[1], loc="upper left",
-              bbox_to_anchor=(1.08, 1.0), fontsize="small", frameon=False)  # fmt: skip
+    ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize="small", frameon=False)
     if title:
         ax.set_title(title)
     return ax

@@ -1,4 +1,4 @@
-"""Lamp decay figure: readings, fitted models, target and forecast replacement date."""
+"""Lamp decay figures: readings, fitted models, target and forecast replacement date."""
 
 from __future__ import annotations
 
@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from audit_lib.report.style import PALETTE, new_figure
+from audit_lib.report.style import FIGURE_RC, PALETTE, new_figure, place_axes
 
 #: Longest stretch drawn past the last reading when a forecast lies far ahead [days].
 MAX_FUTURE_DAYS = 6 * 365
@@ -51,6 +51,9 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
     -------
     matplotlib.figure.Figure
     """
+    import matplotlib.dates as mdates
+    from matplotlib.ticker import MaxNLocator
+
     if ax is None:
         fig, ax = new_figure(7.5, 3.8)
     else:
@@ -77,7 +80,7 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
                 label=label)
     if threshold is not None:
         ax.axhline(threshold, color=PALETTE["vermillion"], lw=1.2, ls=":",
-                   label=f"target minimum {threshold:g}")
+                   label=f"target minimum {threshold:.3g}")
     if forecast is not None and pd.notna(forecast.date):
         ax.axvline(forecast.date, color=PALETTE["vermillion"], lw=1.2,
                    label=f"below target {forecast.date.date().isoformat()}")
@@ -87,12 +90,19 @@ def plot_decay(points: pd.DataFrame, fit, *, installed_on, daily_hours: float,
     if today is not None:
         ax.axvline(pd.Timestamp(today), color="#777777", lw=1.0, ls="-.", label="audit day")
     ax.set_ylim(bottom=0)
+    # a handful of year-month ticks, level: every tick label is text to lay out and draw
+    locator = mdates.AutoDateLocator(minticks=3, maxticks=6)
+    ax.xaxis.set_major_locator(locator)
+    ax.xaxis.set_major_formatter(mdates.DateFormatter("%Y-%m"))
+    ax.yaxis.set_major_locator(MaxNLocator(5))
     ax.set_xlabel("date")
     ax.set_ylabel(unit_label)
-    note = {"not enough data": " (not enough data to fit)", "no decay": " (no decay seen)"}
-    ax.set_title((title or "lamp output over time") + note.get(fit.state, ""), fontsize=10)
+    title = title or "lamp output over time"
+    note = {"not enough data": "not enough data to fit", "no decay": "no decay seen"}
+    if fit.state in note and note[fit.state] not in title and fit.state not in title:
+        title += f" ({note[fit.state]})"
+    ax.set_title(title, fontsize=10)
     ax.legend(fontsize=7, loc="lower left", framealpha=0.9)
-    fig.autofmt_xdate()
     return fig
 
 
@@ -118,5 +128,36 @@ def plot_lamp_decay(result, *, today=None, ax=None, unit_label: str = "UV Index 
     return plot_decay(result.points, result.fit, installed_on=result.installed_on,
                       daily_hours=result.daily_hours, threshold=target,
                       forecast=result.forecast, today=today, ax=ax,
-                      title=f"{result.enclosure} / {result.lamp}: {result.state}",
-                      unit_label=unit_label)
+                      title=f"{result.lamp}: {result.state}", unit_label=unit_label)
+
+
+def plot_lamp_decays(results, *, today=None, unit_label: str = "UV Index [-]"):
+    """Several lamps' decays in one figure, one panel per lamp (:func:`plot_lamp_decay`).
+
+    Parameters
+    ----------
+    results : sequence of audit_lib.history.decay.LampDecay
+        The lamps, top to bottom.
+    today : date-like, optional
+        Marks the day of the audit.
+    unit_label : str
+        Label of the value axes.
+
+    Returns
+    -------
+    matplotlib.figure.Figure or None
+        None without lamps.
+    """
+    import matplotlib.pyplot as plt
+
+    if not results:
+        return None
+    panel_in, top_in, bottom_in, gap_in = 3.0, 0.4, 0.6, 0.75
+    height = top_in + bottom_in + len(results) * panel_in + (len(results) - 1) * gap_in
+    with plt.rc_context(FIGURE_RC):
+        fig, axes = plt.subplots(len(results), 1, figsize=(7.5, height), dpi=110,
+                                 squeeze=False)
+    place_axes(fig, 0.85, bottom_in, 0.3, top_in, hspace=gap_in / panel_in)
+    for ax, result in zip(axes[:, 0], results, strict=True):
+        plot_lamp_decay(result, today=today, ax=ax, unit_label=unit_label)
+    return fig

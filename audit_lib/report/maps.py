@@ -25,6 +25,46 @@ MAP_LABELS = {
 
 _MARGIN_M = 0.01
 
+#: Largest gap between the vitamin-D maps and the UV Index maps times one factor, as a share
+#: of the vitamin-D colour scale, under which the vitamin-D maps are not drawn [-]: 1 % is
+#: two or three of the colour map's 256 steps, a difference the eye does not see.
+VITAMIN_D_SHAPE_TOLERANCE = 0.01
+
+
+def vitamin_d_per_uvi(maps) -> tuple[float, float]:
+    """Vitamin-D-weighted irradiance per UV Index unit over maps, and how far from one factor.
+
+    Both are weighted integrals of the same spectral irradiance (erythemal weighting, CIE S
+    007/ISO 17166, times 40 m2 W-1 for the UV Index, WHO 2002 "Global Solar UV Index"; the
+    previtamin D3 action spectrum, CIE 174:2006). Where every UV lamp shares one spectrum
+    the spectrum only changes in scale from cell to cell, so the two maps differ by one
+    factor, the ratio of the two weighted integrals of that spectrum; lamps with different
+    spectra make the ratio vary over the surface.
+
+    Parameters
+    ----------
+    maps : iterable of audit_lib.scene.maps.SurfaceMap
+        Maps with ``uvi`` and ``vitamin_d_w_m2`` values.
+
+    Returns
+    -------
+    tuple of float
+        The least-squares factor k [W m-2 per UV Index unit] (0 without UV), and the largest
+        ``|vitamin-D - k x UV Index|`` over all cells as a share of the largest vitamin-D
+        value [-] (0 when both maps are zero).
+    """
+    uvi = np.concatenate([np.ravel(m.values["uvi"]) for m in maps])
+    vitamin_d = np.concatenate([np.ravel(m.values["vitamin_d_w_m2"]) for m in maps])
+    known = np.isfinite(uvi) & np.isfinite(vitamin_d)
+    uvi, vitamin_d = uvi[known], vitamin_d[known]
+    if not uvi.size:
+        return 0.0, 0.0
+    squares = float(np.dot(uvi, uvi))
+    factor = float(np.dot(uvi, vitamin_d)) / squares if squares > 0 else 0.0
+    scale = float(np.max(np.abs(vitamin_d)))
+    gap = float(np.max(np.abs(vitamin_d - factor * uvi))) / scale if scale > 0 else 0.0
+    return factor, gap
+
 
 def lamp_outline(placed) -> np.ndarray:
     """Outline of a placed lamp seen from above, as a closed (n, 2) polygon [m].
@@ -97,6 +137,8 @@ def plot_surface_map(
     -------
     matplotlib.figure.Figure
     """
+    from matplotlib.ticker import MaxNLocator
+
     if ax is None:
         s = surface_map.surface
         aspect = (s.y_max_m - s.y_min_m) / (s.x_max_m - s.x_min_m)
@@ -138,6 +180,9 @@ def plot_surface_map(
         ax.plot([], [], color="grey", label="measured lamp extrapolated (hatched)")
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
+    # three or four round ticks a side: every tick is a label to lay out and draw
+    ax.xaxis.set_major_locator(MaxNLocator(3, steps=[1, 2, 2.5, 5, 10]))
+    ax.yaxis.set_major_locator(MaxNLocator(3, steps=[1, 2, 2.5, 5, 10]))
     ax.set_xlabel("x [m]")
     ax.set_ylabel("y [m]")
     ax.set_title(title or f"{s.name} (z = {s.z_m:.2f} m)" + _failed_note(m))

@@ -40,6 +40,8 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
     -------
     matplotlib.figure.Figure
     """
+    from matplotlib.ticker import FixedLocator, NullLocator
+
     if ax is None:
         fig, ax = new_figure(right_in=0.95)  # twin axis of the weights
     else:
@@ -76,6 +78,9 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
         weights.plot(grid, function(grid), color=colour, ls=style, lw=1.1, label=name)
     weights.set_yscale("log")
     weights.set_ylim(1e-5, 2)
+    # decades 1e-4, 1e-2, 1 and no minor ticks: each tick is text and lines to draw
+    weights.yaxis.set_major_locator(FixedLocator([1e-4, 1e-2, 1.0]))
+    weights.yaxis.set_minor_locator(NullLocator())
     weights.set_ylabel("relative weight (action spectra) [-]")
     handles = ax.get_legend_handles_labels()
     extra = weights.get_legend_handles_labels()

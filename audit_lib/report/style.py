@@ -39,6 +39,12 @@ STATE_COLOURS = {
 MAP_COLORMAP = "cividis"
 
 
+#: Settings under which the report's figures are made: a title sits at a fixed height above
+#: its axes instead of being placed by measuring every tick label below it (that measuring
+#: cost about a sixth of a figure's drawing; the fixed margins leave room for the title).
+FIGURE_RC = {"axes.titley": 1.0}
+
+
 #: Default figure margins [in]: left (tick labels and axis label), bottom, right, top (title).
 MARGINS_IN = (0.85, 0.6, 0.3, 0.4)
 
@@ -62,7 +68,8 @@ def new_figure(width_in: float = 7.5, height_in: float = 4.0, *, right_in: float
     """
     import matplotlib.pyplot as plt
 
-    fig, ax = plt.subplots(figsize=(width_in, height_in), dpi=110)
+    with plt.rc_context(FIGURE_RC):
+        fig, ax = plt.subplots(figsize=(width_in, height_in), dpi=110)
     left, bottom, right, top = margins_in
     if right_in is not None:
         right = right_in
