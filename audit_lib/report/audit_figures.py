@@ -22,7 +22,7 @@ from audit_lib.report.maps import (
     vitamin_d_per_uvi,
 )
 from audit_lib.report.spectrum import plot_spectrum
-from audit_lib.report.style import FIGURE_RC, place_axes
+from audit_lib.report.style import DRAW_RC, FIGURE_RC, place_axes
 
 
 def plot_maps(audit, quantity: str = "uvi"):
@@ -180,13 +180,20 @@ def lamp_spectrum_images(audit) -> list:
     return images
 
 
+#: Agg renderers by (width [px], height [px], dpi), shared by the figures drawn here.
+_RENDERERS: dict = {}
+
+
 def png_bytes(fig) -> bytes | None:
     """Render a figure to PNG with a single draw (None for a figure without axes).
 
     ``savefig`` on a figure with a layout engine draws twice (once to lay it out, once to
-    paint); drawing once into the Agg canvas and encoding its pixel buffer gives the same
-    pixels in about a quarter less time. zlib level 1: files about 10 % larger than
-    level 6, encoded about three times faster.
+    paint); drawing once into an Agg renderer and encoding its pixel buffer gives the same
+    pixels in about a quarter less time. The renderer is shared by figures of one size
+    (matplotlib caches the measured size of each text per renderer, so tick labels and axis
+    labels met before are not measured again: about a tenth less drawing). Drawn under
+    :data:`audit_lib.report.style.DRAW_RC`. zlib level 1: files about 10 % larger than
+    level 6, encoded about three times faster; an opaque figure is encoded as RGB.
 
     Parameters
     ----------
@@ -195,16 +202,24 @@ def png_bytes(fig) -> bytes | None:
     """
     import io
 
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    import matplotlib
+    from matplotlib.backends.backend_agg import FigureCanvasAgg, RendererAgg
     from PIL import Image
 
     if not fig.axes:
         return None
     canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
-    canvas.draw()
-    pixels = canvas.buffer_rgba()
-    image = Image.frombuffer("RGBA", (pixels.shape[1], pixels.shape[0]), pixels, "raw",
-                             "RGBA", 0, 1)
+    key = (*canvas.get_width_height(physical=True), fig.dpi)
+    renderer = _RENDERERS.get(key)
+    if renderer is None:
+        if len(_RENDERERS) >= 16:  # a few MB each: keep the sizes met lately
+            del _RENDERERS[next(iter(_RENDERERS))]
+        renderer = _RENDERERS[key] = RendererAgg(*key)
+    renderer.clear()
+    with matplotlib.rc_context(DRAW_RC):
+        fig.draw(renderer)
+    pixels = renderer.buffer_rgba()
+    image = Image.frombuffer("RGBA", key[:2], pixels, "raw", "RGBA", 0, 1)
     if fig.get_facecolor()[3] == 1.0:  # an opaque page: RGB, a quarter less to compress
         image = image.convert("RGB")
     out = io.BytesIO()

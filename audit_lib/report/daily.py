@@ -61,8 +61,8 @@ def plot_daily_uvi(curves, *, zone=None, sun=None, sun_label="sun, clear sky", a
     -------
     matplotlib.axes.Axes
     """
-    if ax is None:
-        _, ax = new_figure(9.0, 4.0, right_in=3.1)  # the legend sits beside the axes
+    if ax is None:  # the legend beside the axes; room above for a title only with one
+        _, ax = new_figure(9.0, 4.0, margins_in=(0.85, 0.6, 3.1, 0.4 if title else 0.2))
     if hasattr(curves, "columns"):  # a DataFrame: one curve per column
         curves = {str(c): curves[c] for c in curves.columns}
     elif not isinstance(curves, dict):
@@ -124,13 +124,25 @@ def plot_monthly_doses(table, *, ax=None, title=""):
     matplotlib.axes.Axes
         The dose axes.
     """
-    if ax is None:  # the legend beside the axes
-        _, ax = new_figure(9.0, 4.0, right_in=2.7)
+    from matplotlib.collections import PolyCollection
+
+    if ax is None:  # the legend beside the axes; room above for a title only with one
+        _, ax = new_figure(9.0, 4.0, margins_in=(0.85, 0.6, 2.1, 0.4 if title else 0.2))
     months = np.asarray(table.index, dtype=int)
-    ax.bar(months, table["sed"], color=PALETTE["blue"], width=0.6, label="enclosure [SED/day]")
+    # the bars as one collection: twelve separate patches cost more to make than to draw
+    doses = table["sed"].to_numpy(float)
+    bars = PolyCollection([[(m - 0.3, 0.0), (m + 0.3, 0.0), (m + 0.3, d), (m - 0.3, d)]
+                           for m, d in zip(months, doses, strict=True)],
+                          facecolors=PALETTE["blue"], edgecolors="none",
+                          label="enclosure [SED/day]")
+    ax.add_collection(bars)
+    top = float(np.nanmax(doses, initial=0.0))
     if "sun_clear_sky_sed" in table:
         ax.plot(months, table["sun_clear_sky_sed"], color=PALETTE["black"], linestyle="--",
                 marker="o", markersize=3, label="sun, clear sky [SED/day]")  # fmt: skip
+        top = max(top, float(np.nanmax(table["sun_clear_sky_sed"], initial=0.0)))
+    ax.set_xlim(months.min() - 0.6, months.max() + 0.6)
+    ax.set_ylim(0, max(1.0, top) * 1.05)
     ax.set_xticks(months)
     ax.set_xticklabels(["J", "F", "M", "A", "M", "J", "J", "A", "S", "O", "N", "D"][: len(months)])
     ax.set_xlabel("month")

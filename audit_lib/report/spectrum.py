@@ -40,7 +40,7 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
     -------
     matplotlib.figure.Figure
     """
-    from matplotlib.ticker import FixedLocator, NullLocator
+    from matplotlib.ticker import FixedLocator, MaxNLocator, NullLocator
 
     if ax is None:
         fig, ax = new_figure(right_in=0.95)  # twin axis of the weights
@@ -68,6 +68,7 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
             ax.set_ylim(max(positive.max() * 1e-6, positive.min()), positive.max() * 2)
     else:
         ax.set_ylim(bottom=0)
+        ax.yaxis.set_major_locator(MaxNLocator(4))
     weights = ax.twinx()
     grid = np.linspace(lo, hi, 800)
     for name, function in ACTION_SPECTRA.items():
