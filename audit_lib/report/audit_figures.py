@@ -22,7 +22,7 @@ from audit_lib.report.maps import (
     vitamin_d_per_uvi,
 )
 from audit_lib.report.spectrum import plot_spectrum
-from audit_lib.report.style import DRAW_RC, FIGURE_RC, place_axes
+from audit_lib.report.style import FIGURE_RC, place_axes
 
 
 def plot_maps(audit, quantity: str = "uvi"):
@@ -191,20 +191,15 @@ def png_bytes(fig) -> bytes | None:
     paint); drawing once into an Agg renderer and encoding its pixel buffer gives the same
     pixels in about a quarter less time. The renderer is shared by figures of one size
     (matplotlib caches the measured size of each text per renderer, so tick labels and axis
-    labels met before are not measured again: about a tenth less drawing). Drawn under
-    :data:`audit_lib.report.style.DRAW_RC`. zlib level 1: files about 10 % larger than
-    level 6, encoded about three times faster; an opaque figure is encoded as RGB.
+    labels met before are not measured again: about a tenth less drawing). Encoded by
+    :func:`encode_png`.
 
     Parameters
     ----------
     fig : matplotlib.figure.Figure
         The figure, drawn at its own dpi with its own face colour.
     """
-    import io
-
-    import matplotlib
     from matplotlib.backends.backend_agg import FigureCanvasAgg, RendererAgg
-    from PIL import Image
 
     if not fig.axes:
         return None
@@ -216,15 +211,49 @@ def png_bytes(fig) -> bytes | None:
             del _RENDERERS[next(iter(_RENDERERS))]
         renderer = _RENDERERS[key] = RendererAgg(*key)
     renderer.clear()
-    with matplotlib.rc_context(DRAW_RC):
-        fig.draw(renderer)
-    pixels = renderer.buffer_rgba()
-    image = Image.frombuffer("RGBA", key[:2], pixels, "raw", "RGBA", 0, 1)
+    fig.draw(renderer)
+    pixels = np.asarray(renderer.buffer_rgba())
     if fig.get_facecolor()[3] == 1.0:  # an opaque page: RGB, a quarter less to compress
-        image = image.convert("RGB")
-    out = io.BytesIO()
-    image.save(out, format="png", compress_level=1, dpi=(fig.dpi, fig.dpi))
-    return out.getvalue()
+        pixels = pixels[..., :3]
+    return encode_png(pixels, fig.dpi)
+
+
+def encode_png(pixels: np.ndarray, dpi: float) -> bytes:
+    """PNG file of an 8-bit RGB or RGBA image, rows unfiltered, zlib level 1.
+
+    Written after the PNG specification (W3C PNG, 2nd edition / ISO/IEC 15948:2004): the
+    signature, an IHDR chunk (8 bits, colour type 2 or 6), a pHYs chunk (the dpi as pixels
+    per metre), one IDAT chunk and IEND. Filter type 0 ("none") on every row and zlib level 1
+    encode a report figure (large flat areas) about 2.5 times faster than Pillow's level 1
+    with adaptive filters, for files about a tenth larger.
+
+    Parameters
+    ----------
+    pixels : numpy.ndarray
+        (height, width, 3 or 4) uint8 [-].
+    dpi : float
+        Resolution stored in the file [dots per inch].
+    """
+    import struct
+    import zlib
+
+    height, width, channels = pixels.shape
+    rows = np.zeros((height, 1 + width * channels), dtype=np.uint8)  # first byte: filter 0
+    rows[:, 1:].reshape(height, width, channels)[...] = pixels
+
+    def chunk(kind: bytes, data: bytes) -> bytes:
+        return (struct.pack(">I", len(data)) + kind + data
+                + struct.pack(">I", zlib.crc32(kind + data)))
+
+    per_metre = round(dpi / 0.0254)
+    colour_type = {3: 2, 4: 6}[channels]
+    return b"".join([
+        b"\x89PNG\r\n\x1a\n",
+        chunk(b"IHDR", struct.pack(">IIBBBBB", width, height, 8, colour_type, 0, 0, 0)),
+        chunk(b"pHYs", struct.pack(">IIB", per_metre, per_metre, 1)),
+        chunk(b"IDAT", zlib.compress(rows.tobytes(), 1)),
+        chunk(b"IEND", b""),
+    ])
 
 
 def prepare_figures() -> None:

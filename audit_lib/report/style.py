@@ -44,10 +44,6 @@ MAP_COLORMAP = "cividis"
 #: cost about a sixth of a figure's drawing; the fixed margins leave room for the title).
 FIGURE_RC = {"axes.titley": 1.0}
 
-#: Settings under which the report's figures are drawn to PNG: glyphs without hinting (about
-#: a sixth less drawing of a figure with a legend; at 96-110 dpi the text looks as sharp).
-DRAW_RC = {"text.hinting": "no_hinting"}
-
 
 #: Default figure margins [in]: left (tick labels and axis label), bottom, right, top (title).
 MARGINS_IN = (0.85, 0.6, 0.3, 0.4)
