@@ -51,9 +51,11 @@ def test_monthly_figure_has_twelve_bars():
     table = monthly_table(1.0, OnOffSchedule(on="09:00", off="17:00"), 2026,
                           reference_latitude_deg=30.0)
     ax = plot_monthly_doses(table)
-    heights = [p.get_height() for p in ax.patches]
+    (bars,) = ax.collections  # the twelve bars are one collection
+    heights = [float(np.ptp(path.vertices[:, 1])) for path in bars.get_paths()]
     assert len(heights) == 12
     assert heights == pytest.approx([8 * 0.9] * 12)
+    assert ax.get_ylim()[1] >= max(8 * 0.9, table["sun_clear_sky_sed"].max())
     plt.close(ax.figure)
 
 

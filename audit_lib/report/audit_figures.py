@@ -11,9 +11,9 @@ import math
 
 import numpy as np
 
+from audit_lib.report import formats as fmt
 from audit_lib.report.daily import plot_daily_uvi, plot_monthly_doses
 from audit_lib.report.decay import plot_lamp_decays as plot_decay_panels
-from audit_lib.report import formats as fmt
 from audit_lib.report.maps import (
     MAP_LABELS,
     VITAMIN_D_SHAPE_TOLERANCE,
@@ -22,14 +22,15 @@ from audit_lib.report.maps import (
     vitamin_d_per_uvi,
 )
 from audit_lib.report.spectrum import plot_spectrum
-from audit_lib.report.style import FIGURE_RC, place_axes
+from audit_lib.report.style import FIGURE_DPI, FIGURE_RC, place_axes
 
 
 def plot_maps(audit, quantity: str = "uvi"):
     """One panel per surface (:func:`audit_lib.report.maps.plot_surface_map`), one colour bar.
 
     Lamps are outlined, failed emitters crossed out and, for the UV Index, the ends of the
-    zone's basking maximum range drawn as contours.
+    zone's basking maximum range drawn as contours labelled with their values (dashed: low
+    end, solid: high end). No legends: the workbook's text above the maps explains the marks.
 
     Parameters
     ----------
@@ -49,7 +50,7 @@ def plot_maps(audit, quantity: str = "uvi"):
         if quantity == "uvi" and audit.zone is not None else None
     width, height = 4.4 * cols, 3.2 * rows
     with plt.rc_context(FIGURE_RC):
-        fig = plt.figure(figsize=(width, height), dpi=96)
+        fig = plt.figure(figsize=(width, height), dpi=FIGURE_DPI)
         # fixed margins [in]: tick and axis labels left and below, titles above, the bar right
         place_axes(fig, 0.6, 0.5, 1.05, 0.35, wspace=0.3, hspace=0.35)
         grid = fig.add_gridspec(rows, cols)
@@ -58,10 +59,16 @@ def plot_maps(audit, quantity: str = "uvi"):
         # one bar for the shared scale (one per panel repeated it, a third of the drawing)
         cax = fig.add_axes([1.0 - 0.85 / width, 0.5 / height, 0.12 / width,
                             1.0 - 0.85 / height])
-    for ax, m in zip(axes, maps, strict=True):
-        plot_surface_map(m, quantity, uvi_range, audit.scene, ax, vmax=vmax, colorbar=False)
+    for i, (ax, m) in enumerate(zip(axes, maps, strict=True)):
+        plot_surface_map(m, quantity, uvi_range, audit.scene, ax, vmax=vmax, colorbar=False,
+                         legend=False)
+        # axis labels on the outer panels only (all panels are in metres)
+        if i % cols:
+            ax.set_ylabel("")
+        if i + cols < len(maps):
+            ax.set_xlabel("")
     bar = fig.colorbar(axes[0].images[0], cax=cax)
-    bar.locator = MaxNLocator(5)
+    bar.locator = MaxNLocator(5, steps=[1, 2, 2.5, 5, 10])
     bar.update_ticks()
     bar.set_label(MAP_LABELS.get(quantity, quantity))
     return fig

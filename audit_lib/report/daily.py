@@ -125,6 +125,7 @@ def plot_monthly_doses(table, *, ax=None, title=""):
         The dose axes.
     """
     from matplotlib.collections import PolyCollection
+    from matplotlib.ticker import MaxNLocator
 
     if ax is None:  # the legend beside the axes; room above for a title only with one
         _, ax = new_figure(9.0, 4.0, margins_in=(0.85, 0.6, 2.1, 0.4 if title else 0.2))
@@ -145,6 +146,7 @@ def plot_monthly_doses(table, *, ax=None, title=""):
     ax.set_ylim(0, max(1.0, top) * 1.05)
     ax.set_xticks(months)
     ax.set_xticklabels(["J", "F", "M", "A", "M", "J", "J", "A", "S", "O", "N", "D"][: len(months)])
+    ax.yaxis.set_major_locator(MaxNLocator(5))
     ax.set_xlabel("month")
     ax.set_ylabel("erythemal dose [SED per day]")
     ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize="small", frameon=False)

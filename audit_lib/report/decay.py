@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from audit_lib.report.style import FIGURE_RC, PALETTE, new_figure, place_axes
+from audit_lib.report.style import FIGURE_DPI, FIGURE_RC, PALETTE, new_figure, place_axes
 
 #: Longest stretch drawn past the last reading when a forecast lies far ahead [days].
 MAX_FUTURE_DAYS = 6 * 365
@@ -155,7 +155,7 @@ def plot_lamp_decays(results, *, today=None, unit_label: str = "UV Index [-]"):
     panel_in, top_in, bottom_in, gap_in = 3.0, 0.4, 0.6, 0.75
     height = top_in + bottom_in + len(results) * panel_in + (len(results) - 1) * gap_in
     with plt.rc_context(FIGURE_RC):
-        fig, axes = plt.subplots(len(results), 1, figsize=(7.5, height), dpi=110,
+        fig, axes = plt.subplots(len(results), 1, figsize=(7.5, height), dpi=FIGURE_DPI,
                                  squeeze=False)
     place_axes(fig, 0.85, bottom_in, 0.3, top_in, hspace=gap_in / panel_in)
     for ax, result in zip(axes[:, 0], results, strict=True):

@@ -109,6 +109,7 @@ def plot_surface_map(
     show_emitters: bool = True,
     title: str | None = None,
     colorbar: bool = True,
+    legend: bool = True,
 ):
     """Draw one surface map with target-range contours and the lamps above it.
 
@@ -132,6 +133,9 @@ def plot_surface_map(
         Panel title; default the surface name and height.
     colorbar : bool, optional
         Draw this panel's colour bar (off when panels share one bar).
+    legend : bool, optional
+        Explain the contours, failed emitters and hatching in a legend (off where the text
+        beside the figure explains them; the contours carry their values).
 
     Returns
     -------
@@ -180,13 +184,13 @@ def plot_surface_map(
         ax.plot([], [], color="grey", label="measured lamp extrapolated (hatched)")
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
-    # three or four round ticks a side: every tick is a label to lay out and draw
-    ax.xaxis.set_major_locator(MaxNLocator(3, steps=[1, 2, 2.5, 5, 10]))
-    ax.yaxis.set_major_locator(MaxNLocator(3, steps=[1, 2, 2.5, 5, 10]))
+    # at most five round ticks a side: every tick is a label to lay out and draw
+    ax.xaxis.set_major_locator(MaxNLocator(4, steps=[1, 2, 2.5, 5, 10]))
+    ax.yaxis.set_major_locator(MaxNLocator(4, steps=[1, 2, 2.5, 5, 10]))
     ax.set_xlabel("x [m]")
     ax.set_ylabel("y [m]")
     ax.set_title(title or f"{s.name} (z = {s.z_m:.2f} m)" + _failed_note(m))
-    if ax.get_legend_handles_labels()[0]:
+    if legend and ax.get_legend_handles_labels()[0]:
         ax.legend(loc="upper right", fontsize=7, framealpha=0.85)
     return fig
 

@@ -42,8 +42,8 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
     """
     from matplotlib.ticker import FixedLocator, MaxNLocator, NullLocator
 
-    if ax is None:
-        fig, ax = new_figure(right_in=0.95)  # twin axis of the weights
+    if ax is None:  # twin axis of the weights on the right, the legend below the axes
+        fig, ax = new_figure(7.5, 4.6, margins_in=(0.85, 1.15, 0.95, 0.4))
     else:
         fig = ax.figure
     wl = spectrum.wavelength_nm
@@ -85,8 +85,9 @@ def plot_spectrum(spectrum, ax=None, *, log_scale: bool = False, sun=None,
     weights.set_ylabel("relative weight (action spectra) [-]")
     handles = ax.get_legend_handles_labels()
     extra = weights.get_legend_handles_labels()
-    ax.legend(handles[0] + extra[0], handles[1] + extra[1], fontsize=7, loc="upper right",
-              framealpha=0.9)
+    # below the axes, where it hides no curve and no band name
+    ax.legend(handles[0] + extra[0], handles[1] + extra[1], fontsize=7, loc="upper center",
+              bbox_to_anchor=(0.5, -0.16), ncols=3, frameon=False)
     return fig
 
 

@@ -45,13 +45,18 @@ MAP_COLORMAP = "cividis"
 FIGURE_RC = {"axes.titley": 1.0}
 
 
+#: Resolution of the report's figures [dots per inch]: a screen's; at 110 dpi the same figures
+#: cost about a twentieth more to draw, for text no sharper on a page.
+FIGURE_DPI = 96
+
+
 #: Default figure margins [in]: left (tick labels and axis label), bottom, right, top (title).
 MARGINS_IN = (0.85, 0.6, 0.3, 0.4)
 
 
 def new_figure(width_in: float = 7.5, height_in: float = 4.0, *, right_in: float | None = None,
                margins_in: tuple[float, float, float, float] = MARGINS_IN):
-    """Return ``(fig, ax)`` at 110 dpi with fixed margins in inches.
+    """Return ``(fig, ax)`` at :data:`FIGURE_DPI` with fixed margins in inches.
 
     Fixed margins instead of a layout engine: the report's figures have known furniture
     (one title, one label per axis, at most a twin axis or a legend beside the axes), and
@@ -69,7 +74,7 @@ def new_figure(width_in: float = 7.5, height_in: float = 4.0, *, right_in: float
     import matplotlib.pyplot as plt
 
     with plt.rc_context(FIGURE_RC):
-        fig, ax = plt.subplots(figsize=(width_in, height_in), dpi=110)
+        fig, ax = plt.subplots(figsize=(width_in, height_in), dpi=FIGURE_DPI)
     left, bottom, right, top = margins_in
     if right_in is not None:
         right = right_in
