@@ -401,7 +401,8 @@ class WarmKernel:
         Parameters
         ----------
         input_path, output_path : str or PathLike
-            Workbook to run, and where papermill saves the executed copy as it goes.
+            Workbook to run, and where papermill saves the executed copy when it completes
+            (or fails); None saves nothing.
         parameters : dict
             Values injected after the ``parameters`` cell (JSON-able).
         timeout : float
@@ -416,7 +417,8 @@ class WarmKernel:
 
         self.ensure_started()
         return papermill.execute_notebook(
-            str(input_path), str(output_path), parameters=parameters,
+            str(input_path), None if output_path is None else str(output_path),
+            parameters=parameters,
             engine_name=_ENGINE_NAME, kernel_name=self.kernel_name, km=self.km, kc=self.kc,
             progress_bar=False, execution_timeout=timeout,
             request_save_on_cell_execute=False,
