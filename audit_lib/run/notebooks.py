@@ -308,13 +308,9 @@ def _register_engine() -> None:
             # a connected client is reused: a new one waits 0.2 s for the kernel's output
             # channel to fall quiet (jupyter_client's wait_for_ready) on every workbook
             client.kc = kc
-            # papermill saves the whole notebook before and after every cell (about 70
-            # validated writes of a growing notebook); save once, when it completes
-            output_path, nb_man.output_path = nb_man.output_path, None
-            try:
+            try:  # no output path here: WarmKernel.execute saves once, when it completes
                 return client.execute()
             finally:
-                nb_man.output_path = output_path
                 if client.kc is not None:
                     try:
                         if km is None or run_sync(km.is_alive)():
@@ -350,6 +346,7 @@ class WarmKernel:
         self.km = None
         self.kc = None
         self._socket_dir = None
+        self._workbooks: dict = {}
 
     def launch(self) -> None:
         """Start the kernel process without waiting for it (see :meth:`ensure_started`).
@@ -398,11 +395,18 @@ class WarmKernel:
     def execute(self, input_path, output_path, parameters: dict, timeout: float = 900):
         """Execute one workbook with papermill; return the executed notebook.
 
+        The steps of ``papermill.execute_notebook`` (parameters cell injected after the
+        ``parameters`` cell, papermill metadata, error markers, :class:`PapermillExecutionError`)
+        without its unconditional serialisation of the executed notebook, which costs about
+        as much as converting it to HTML when nobody keeps the file. The workbook file is
+        parsed once per kernel while it is unchanged.
+
         Parameters
         ----------
-        input_path, output_path : str or PathLike
-            Workbook to run, and where papermill saves the executed copy when it completes
-            (or fails); None saves nothing.
+        input_path : str or PathLike
+            Workbook to run.
+        output_path : str or PathLike or None
+            Where the executed copy is saved when it completes or fails; None saves nothing.
         parameters : dict
             Values injected after the ``parameters`` cell (JSON-able).
         timeout : float
@@ -413,16 +417,43 @@ class WarmKernel:
         papermill.PapermillExecutionError
             A cell raised; the executed notebook with the error is still saved.
         """
-        import papermill
+        from papermill.engines import papermill_engines
+        from papermill.execute import (
+            prepare_notebook_metadata,
+            raise_for_execution_errors,
+            remove_error_markers,
+        )
+        from papermill.iorw import write_ipynb
+        from papermill.parameterize import parameterize_notebook
 
         self.ensure_started()
-        return papermill.execute_notebook(
-            str(input_path), None if output_path is None else str(output_path),
-            parameters=parameters,
-            engine_name=_ENGINE_NAME, kernel_name=self.kernel_name, km=self.km, kc=self.kc,
-            progress_bar=False, execution_timeout=timeout,
-            request_save_on_cell_execute=False,
-        )
+        input_path = str(input_path)
+        output_path = None if output_path is None else str(output_path)
+        nb = self._workbook(input_path)
+        if parameters:
+            nb = parameterize_notebook(nb, parameters, kernel_name=self.kernel_name,
+                                       engine_name=_ENGINE_NAME)
+        nb = remove_error_markers(prepare_notebook_metadata(nb, input_path, output_path))
+        nb = papermill_engines.execute_notebook_with_engine(
+            _ENGINE_NAME, nb, input_path=input_path, output_path=None,
+            kernel_name=self.kernel_name, progress_bar=False, log_output=False,
+            km=self.km, kc=self.kc, execution_timeout=timeout)
+        raise_for_execution_errors(nb, output_path)  # saves the failed notebook, then raises
+        if output_path is not None:
+            write_ipynb(nb, output_path)
+        return nb
+
+    def _workbook(self, path: str):
+        """A fresh copy of the workbook as papermill loads it (parsed once while unchanged)."""
+        import copy
+
+        from papermill.iorw import load_notebook_node
+
+        stat = os.stat(path)
+        key = (path, stat.st_mtime_ns, stat.st_size)
+        if self._workbooks.get(path, (None,))[0] != key:
+            self._workbooks[path] = (key, load_notebook_node(path))
+        return copy.deepcopy(self._workbooks[path][1])
 
     def shutdown(self) -> None:
         """Stop the kernel (safe to call twice)."""
