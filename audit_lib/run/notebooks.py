@@ -314,7 +314,8 @@ def _register_engine() -> None:
                 if client.kc is not None:
                     try:
                         if km is None or run_sync(km.is_alive)():
-                            run_sync(client.kc.execute_interactive)(_RESET_CODE, timeout=30)
+                            run_sync(client.kc.execute_interactive)(
+                                _RESET_CODE, silent=True, store_history=False, timeout=30)
                     finally:
                         if client.kc is not kc:  # a client made for this workbook only
                             client.kc.stop_channels()
@@ -368,7 +369,10 @@ class WarmKernel:
                                      kernel_spec_manager=_spec_manager(), **connection)
         # an exported MPLBACKEND (e.g. Agg) would stop the inline backend: figures vanish
         env = {k: v for k, v in os.environ.items() if k != "MPLBACKEND"}
-        run_sync(self.km.start_kernel)(cwd=self.cwd, env=env)
+        # no input history: the kernel would write every cell to an SQLite file (a thread
+        # and a database for code nobody recalls)
+        run_sync(self.km.start_kernel)(cwd=self.cwd, env=env,
+                                       extra_arguments=["--HistoryManager.enabled=False"])
 
     def ensure_started(self) -> None:
         """Start the kernel if it is not running (first use, or after it died), and warm it.
