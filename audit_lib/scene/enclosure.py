@@ -11,6 +11,7 @@ Maps over these records are computed by :mod:`audit_lib.scene.maps`.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from functools import cached_property
 
 import numpy as np
 
@@ -215,6 +216,12 @@ class Enclosure:
                 hint="give PlacedLamp(name=...) to tell two lamps of the same model apart",
             )
 
+    @cached_property
+    def placed_groups(self) -> tuple[tuple[PlacedLamp, SourceGroup], ...]:
+        """Every lamp's source groups in the enclosure frame, built once per scene
+        (:func:`placed_groups`; the records are frozen, so they cannot go stale)."""
+        return _place_groups(self)
+
     @property
     def all_surfaces(self) -> tuple[Surface, ...]:
         """The surfaces including the automatic floor."""
@@ -247,11 +254,15 @@ def rotation_matrix(azimuth_deg: float, tilt_deg: float) -> np.ndarray:
     return rz @ rx
 
 
-def placed_groups(enclosure: Enclosure) -> list[tuple[PlacedLamp, SourceGroup]]:
-    """Every lamp's source groups moved into the enclosure frame.
+def placed_groups(enclosure: Enclosure) -> tuple[tuple[PlacedLamp, SourceGroup], ...]:
+    """Every lamp's source groups moved into the enclosure frame (cached per scene).
 
     Labels become ``"<lamp id>/<emitter>"`` for LED arrays and ``"<lamp id>"`` otherwise.
     """
+    return enclosure.placed_groups
+
+
+def _place_groups(enclosure: Enclosure) -> tuple[tuple[PlacedLamp, SourceGroup], ...]:
     out = []
     for placed in enclosure.lamps:
         rot = rotation_matrix(placed.azimuth_deg, placed.tilt_deg)
@@ -272,4 +283,4 @@ def placed_groups(enclosure: Enclosure) -> list[tuple[PlacedLamp, SourceGroup]]:
                     ),
                 )
             )
-    return out
+    return tuple(out)
