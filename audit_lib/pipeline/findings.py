@@ -221,7 +221,8 @@ def short_uvb_fraction(spectra_metrics: dict) -> float | None:
 def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles,
                  spectra_metrics, audit_date, spacing_m, main_lamp=None,
                  replacement_date=None, unknown_species=(), cache=None,
-                 cache_key=None, target_settings=None, uncertainty=None) -> Findings:
+                 cache_key=None, target_settings=None, uncertainty=None,
+                 search_height=True) -> Findings:
     """From one enclosure's UV Index maps to its figures, checks, verdict and actions.
 
     Parameters
@@ -263,6 +264,9 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     uncertainty : OutputUncertainty, optional
         Uncertainty of ``scale``: each check gets its 90 % interval and the borderline rule
         (none without it).
+    search_height : bool
+        Search the mount height for the height action (False: checks and verdicts are the
+        same, the actions lack the height; the plan search scores candidates so).
 
     Returns
     -------
@@ -303,7 +307,7 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     if uncertainty is not None:
         found.intervals = figure_intervals(found, maps["floor"].values["uvi"], uncertainty)
     _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key, maps)
+           replacement_date, cache, cache_key, maps, search_height)
     return found
 
 
@@ -380,7 +384,7 @@ def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) ->
 
 
 def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key, maps) -> None:
+           replacement_date, cache, cache_key, maps, search_height=True) -> None:
     """Checks, verdicts and actions of every species; the overall state and reason."""
     main = None
     if scene.lamps:
@@ -393,7 +397,7 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
             return cache("height", key, lambda: height_for_target(
                 scene, main.id, surface, uvi_range, aim_uvi=aim, failed=failed,
                 scale=scale, spacing_m=spacing_m))
-        return height_search if main is not None else None
+        return height_search if main is not None and search_height else None
 
     def surface_of(species):  # where the species' UV Index top check is made
         if species.uv_provision == "gradient" and found.used_area_place in maps:

@@ -296,10 +296,10 @@ def find_plan(planner: WhatIfPlanner, checks_before=None) -> Plan:
         if key in tried:
             return tried[key]
         planner.config = base
-        result = planner.update(**change)
+        result = planner.update(search_height=False, **change)
         extra, more = _complete(planner, result)
         if more:
-            result = planner.update(**more)
+            result = planner.update(search_height=False, **more)
         entry = (_score(result.checks), len(kinds) + len(extra), (*kinds, *extra),
                  {**change, **more})
         tried[key] = entry
