@@ -410,23 +410,24 @@ def integrate_time_budget(
         vit = None if vitamin_d_by_position is None else vitamin_d_by_position[pos]
         d = _daily_dose(uvi_full_by_position[pos], fractions, step_s, vit, uvi_range, mask)
         rows[pos] = {"share": float(share), **_dose_row(d)}
-    table = pd.DataFrame.from_dict(rows, orient="index")
-    table.index.name = "position"
-    w = table["share"].to_numpy()
+    columns = {k: np.array([r[k] for r in rows.values()], dtype=float)
+               for k in next(iter(rows.values()))}
+    table = pd.DataFrame(columns, index=pd.Index(list(rows), name="position"))
+    w = columns["share"]
 
     def wsum(col):
-        return float(np.sum(w * table[col].to_numpy()))
+        return float(np.sum(w * columns[col]))
 
     erythemal = wsum("erythemal_j_m2")
-    uvi_hours = float(np.sum(w * table["mean_uvi_exposed"] * table["exposed_hours"]))
-    used = table[table["share"] > 0]
+    uvi_hours = float(np.sum(w * columns["mean_uvi_exposed"] * columns["exposed_hours"]))
+    used = columns["peak_uvi"][w > 0]
     animal = DailyDose(
         erythemal_j_m2=erythemal,
         sed=erythemal / SED_J_M2,
         vitamin_d_j_m2=wsum("vitamin_d_j_m2"),
         hours_in_range=wsum("hours_in_range"),
         exposed_hours=active_h,
-        peak_uvi=float(used["peak_uvi"].max()) if len(used) else 0.0,
+        peak_uvi=float(used.max()) if len(used) else 0.0,
         mean_uvi_exposed=uvi_hours / active_h if active_h > 0 else 0.0,
         uvi_range=_check_range(uvi_range),
     )
