@@ -39,7 +39,7 @@ import numpy as np
 from audit_lib.judge import targets
 from audit_lib.judge.verdicts import ATTENTION
 from audit_lib.pipeline.audit import audit_enclosure
-from audit_lib.pipeline.planner import WhatIfPlanner
+from audit_lib.pipeline.planner import SITE_WIDE, WhatIfPlanner
 
 #: Kinds of plan action (stable: ``results.json`` carries them).
 PLAN_ACTION_KINDS = ("mount height", "position", "dimming", "emitters", "lamp model", "screen",
@@ -334,8 +334,8 @@ def _screening_planner(planner: WhatIfPlanner) -> WhatIfPlanner:
     if planner.spacing_m is not None:
         screen.spacing_m = planner.spacing_m * SCREEN_COARSENING
     screen.shape = tuple(max(8, n // SCREEN_COARSENING) for n in planner.shape)
-    screen._cache = {k: planner._cache.setdefault(k, {}) for k in ("lamp", "spectra",
-                                                                    "profiles", "sun")}
+    screen._cache = {k: planner._cache.setdefault(k, {})
+                     for k in (*SITE_WIDE, "spectra", "profiles", "sun")}
     screen.result = None
     return screen
 
