@@ -363,6 +363,7 @@ def integrate_time_budget(
     *,
     vitamin_d_by_position=None,
     uvi_range=None,
+    with_table: bool = True,
 ):
     """Daily doses of an animal that shares its active day between positions.
 
@@ -378,6 +379,8 @@ def integrate_time_budget(
         The same for vitamin-D-weighted irradiance [W m-2].
     uvi_range : (float, float), optional
         Target UV Index range [-].
+    with_table : bool
+        Build ``per_position`` (False: None, when only the animal's figures are needed).
 
     Returns
     -------
@@ -385,7 +388,7 @@ def integrate_time_budget(
         Share-weighted doses and hours in range; ``peak_uvi`` is the highest UV Index of any
         position used; ``mean_uvi_exposed`` is the share-weighted mean over the active hours;
         ``exposed_hours`` the active hours.
-    per_position : pandas.DataFrame
+    per_position : pandas.DataFrame or None
         One row per position: ``share``, and the position's doses within the active day.
 
     Notes
@@ -412,7 +415,8 @@ def integrate_time_budget(
         rows[pos] = {"share": float(share), **_dose_row(d)}
     columns = {k: np.array([r[k] for r in rows.values()], dtype=float)
                for k in next(iter(rows.values()))}
-    table = pd.DataFrame(columns, index=pd.Index(list(rows), name="position"))
+    table = (pd.DataFrame(columns, index=pd.Index(list(rows), name="position"))
+             if with_table else None)
     w = columns["share"]
 
     def wsum(col):

@@ -379,7 +379,7 @@ def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) ->
     mean_range = (zone.mean_uvi_low, zone.mean_uvi_high) if zone else None
     found.animal_dose, _ = integrate_time_budget(
         TimeBudget(shares=dict(record.time_budget)), by_place, found.profiles,
-        vitamin_d_by_position=vitd, uvi_range=mean_range)
+        vitamin_d_by_position=vitd, uvi_range=mean_range, with_table=False)
     found.mean_uvi = float(found.animal_dose.mean_uvi_exposed)
 
 
