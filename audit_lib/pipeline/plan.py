@@ -279,10 +279,10 @@ CONFIRMED = 3
 def _judge(planner, base, kinds, change):
     """A candidate judged by ``planner``: (score, changes, kinds, settings, placement)."""
     planner.config = base
-    result = planner.update(search_height=False, **change)
+    result = planner.update(checks_only=True, **change)
     extra, more = _complete(planner, result)
     if more:
-        result = planner.update(search_height=False, **more)
+        result = planner.update(checks_only=True, **more)
     return (_score(result.checks), len(kinds) + len(extra), (*kinds, *extra),
             {**change, **more}, (kinds, change))
 

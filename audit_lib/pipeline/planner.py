@@ -289,7 +289,7 @@ class WhatIfPlanner:
 
     # --- update ---------------------------------------------------------------------------
 
-    def update(self, *, search_height: bool = True, **changes) -> PlanResult:
+    def update(self, *, checks_only: bool = False, **changes) -> PlanResult:
         """Change some plan settings and recompute; returns the new :class:`PlanResult`.
 
         Parameters
@@ -299,9 +299,9 @@ class WhatIfPlanner:
             ``failed_emitters=(3,)``, ``species="..."``, ``on="08:00"``...). A new ``lamp``
             (another placed lamp of the enclosure) starts from that lamp as the site has it;
             the changes made to the previous lamp are dropped.
-        search_height : bool
-            Search the mount height of the height action (False: same checks, the actions
-            lack the height; :func:`audit_lib.pipeline.plan.find_plan` scores candidates so).
+        checks_only : bool
+            Only what the checks need (:func:`audit_lib.pipeline.findings.find_figures`;
+            :func:`audit_lib.pipeline.plan.find_plan` scores candidates so).
 
         Raises
         ------
@@ -321,13 +321,13 @@ class WhatIfPlanner:
                                                        if 1 <= k <= n))
 
         # a lamp used outside its measured range is reported once per surface from the maps
-        result = collect_notes(self._compute, config, search_height,
+        result = collect_notes(self._compute, config, checks_only,
                                ignore=(OutsideMeasuredRangeWarning,))
         self.config = config
         self.result = result
         return result
 
-    def _compute(self, c: PlanConfig, search_height: bool = True) -> PlanResult:
+    def _compute(self, c: PlanConfig, checks_only: bool = False) -> PlanResult:
         t0 = time.perf_counter()
         site = self.planned_site(c)
         scene = self.scene(c, site)
@@ -358,7 +358,7 @@ class WhatIfPlanner:
             spectra_metrics=spectra, audit_date=self.day,
             spacing_m=DEFAULT_SPACING_M, main_lamp=c.lamp,  # height search on the reports' grid
             cache=self._cached, cache_key=self._place_key(c), target_settings=settings,
-            uncertainty=self.uncertainty, search_height=search_height)
+            uncertainty=self.uncertainty, checks_only=checks_only)
         t3 = time.perf_counter()
         notes = [f"On {part:.0%} of {name!r} a lamp known from readings is used outside the "
                  "distances it was measured at: values there are extrapolated."
