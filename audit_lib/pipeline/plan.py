@@ -19,8 +19,11 @@ pairs of them, on coarse grids. Dimming and light hours need no map of their own
 figures are linear in output, so for each placement the dimming that centres the output
 inside every output-dependent target (interval included) is solved directly
 (:func:`output_share_range`), and light hours are set to the middle of their target around
-the present light period's centre. The first plan the planner confirms wins; ties go to the
-widest margin. When no candidate resolves every check, the plan is the best compromise
+the present light period's centre. Every candidate is first screened by the same planner on
+a grid :data:`SCREEN_COARSENING` times coarser, checks only (no actions, doses or daily
+curve: :func:`audit_lib.pipeline.findings.find_figures`); the :data:`CONFIRMED` best are
+judged again on the planner's own grid and the best of those wins (ties: the one tried
+first). When no candidate resolves every check, the plan is the best compromise
 (fewest checks left outside, then the largest share of checks within range) and ``reason``
 says in one sentence which checks nothing at the site can fix.
 
