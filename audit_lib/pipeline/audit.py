@@ -200,7 +200,7 @@ def open_enclosure(site_dir, enclosure_id: str = "", *, audit_date: str = "",
     if not 0.0 <= float(emitter_failure_probability) <= 1.0:
         raise InputError(f"probability {emitter_failure_probability!r} is outside 0-1",
                          field="emitter_failure_probability")
-    site = load_site(site_dir)
+    site = load_site(site_dir, reuse=True)  # the batch kernel's last load, if unchanged
     choose_audit_date(site, audit_date or None)
     ids = [e.id for e in site.records.enclosures]
     if not ids:

@@ -88,7 +88,7 @@ def _audit_warm_up():
         try:  # the site's files and unit tables; a broken site is reported by the main process
             from audit_lib.site.folder import load_site
 
-            load_site(SITE_DIR)
+            load_site(SITE_DIR, reuse=True)
         except Exception:  # noqa: BLE001
             pass
 
