@@ -83,6 +83,7 @@ class Site:
     root: Path
     records: SiteFile
     readings: pd.DataFrame = field(default_factory=lambda: read_readings_empty())
+    _by_enclosure: tuple | None = field(default=None, init=False, repr=False, compare=False)
 
     @property
     def name(self) -> str:
@@ -114,8 +115,16 @@ class Site:
         return self.root / name
 
     def readings_of(self, enclosure_id: str) -> pd.DataFrame:
-        """Return the readings of one enclosure."""
-        return self.readings[self.readings["enclosure"] == enclosure_id]
+        """Return the readings of one enclosure (a copy, in file order).
+
+        The table is split by enclosure once per site object: an audit asks for its
+        enclosure's readings several times, and a large site's table is long.
+        """
+        if self._by_enclosure is None or self._by_enclosure[0] is not self.readings:
+            groups = dict(iter(self.readings.groupby("enclosure", sort=False)))
+            self._by_enclosure = (self.readings, groups)
+        found = self._by_enclosure[1].get(enclosure_id)
+        return found.copy() if found is not None else self.readings.iloc[0:0].copy()
 
 
 def read_readings_empty() -> pd.DataFrame:
