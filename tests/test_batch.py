@@ -305,14 +305,17 @@ def _breaking_workbook(tmp_path: Path, body: str) -> Path:
 
 
 @pytest.mark.slow
-def test_broken_enclosure_is_isolated(tmp_path):
+def test_broken_enclosure_is_isolated(tmp_path, capsys):
     """papermill: a failing cell raises PapermillExecutionError; the batch lists that enclosure
-    with the error, keeps its executed notebook, and finishes the others."""
+    with the error (one line as it happens, beside the progress bar), keeps its executed
+    notebook, and finishes the others."""
     workbook = _breaking_workbook(
         tmp_path, 'if enclosure_id == "rh-02":\n    raise RuntimeError("broken on purpose")')
     out = tmp_path / "out"
     result = run_batch(DEMO, out, only=["rh-01", "rh-02", "rh-03"], workbook=workbook,
-                       overview=False, progress=False, keep_notebooks=True)
+                       overview=False, progress=True, keep_notebooks=True)
+    live = [ln for ln in capsys.readouterr().err.splitlines() if ln.startswith("could not")]
+    assert live == [f"could not audit rh-02: {result.failures[0].error}"]
     failed = {o.id: o for o in result.failures}
     assert list(failed) == ["rh-02"]
     assert "RuntimeError: broken on purpose" in failed["rh-02"].error

@@ -23,6 +23,7 @@ from __future__ import annotations
 import json
 import os
 import re
+import sys
 import time
 import warnings
 from concurrent.futures import ProcessPoolExecutor, as_completed
@@ -88,7 +89,7 @@ def _audit_warm_up():
         try:  # the site's files and unit tables; a broken site is reported by the main process
             from audit_lib.site.folder import load_site
 
-            load_site(SITE_DIR)
+            load_site(SITE_DIR, reuse=True)
         except Exception:  # noqa: BLE001
             pass
 
@@ -198,7 +199,6 @@ def _inside(out_dir: Path, path: Path) -> Path:
 
 
 def _init_worker(warm_up: str) -> None:
-    import sys
     from multiprocessing.util import Finalize
 
     # jsonschema (pulled in by nbformat) compiles an IRI grammar on import when the optional
@@ -400,6 +400,9 @@ def _execute(pool: ProcessPoolExecutor, tasks: list[dict], progress: bool) -> li
             except Exception as exc:  # noqa: BLE001
                 done.append({"id": task["id"], "name": task["name"],
                              "error": f"{type(exc).__name__}: {_first_line(exc)}"})
+            if done[-1].get("error") and progress:  # at once, not after the whole batch
+                bar.write(f"could not audit {task['id']}: {done[-1]['error']}",
+                          file=sys.stderr)
             bar.update(1)
             bar.set_postfix_str(task["id"][:24])
     finally:
