@@ -1,12 +1,14 @@
-"""Extra time per enclosure for the checks' intervals and the plan (issue 15).
+"""Extra time per enclosure for the checks' intervals and the plan (issues 15 and 16).
 
 On the demo park (12 enclosures, the reports' 2 cm grid), for each enclosure: the time of
 the intervals (the audit's uncertainty budget and every check's 90 % interval, the only
 work the audit adds) and of the plan search (enclosures that are not "meets targets").
+The plan's time is processor time (``time.process_time``, the least of ``--repeats`` runs:
+the machine is shared, and processor time is what a batch of many enclosures pays).
 
 Prints ``interval_ms_per_enclosure`` (median), ``plan_s_per_planned_enclosure`` (median and
 max over those planned), ``plan_s_per_enclosure`` (the plan's total over all enclosures,
-as the batch pays it) and ``planned_enclosures``. Target: <= 0.2 s extra per enclosure.
+as the batch pays it; target <= 0.25 s) and ``planned_enclosures``.
 """
 
 from __future__ import annotations
@@ -24,7 +26,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 SITE = Path(__file__).resolve().parents[1] / "sample_sites" / "kestrel-moor-wildlife-park"
 
 
-def main() -> None:
+def main(repeats: int = 3) -> None:
     from audit_lib.pipeline.audit import audit_enclosure
     from audit_lib.pipeline.findings import figure_intervals
     from audit_lib.pipeline.plan import plan_for_audit
@@ -41,20 +43,23 @@ def main() -> None:
             u = audit_uncertainty(site, e.id, audit.audit_date, audit.points)
             figure_intervals(audit.findings, audit.maps["floor"].values["uvi"], u)
         interval_ms.append(1e3 * (time.perf_counter() - t0) / 20)
-        t0 = time.perf_counter()
-        plan = plan_for_audit(site, audit)
+        runs = []
+        for _ in range(repeats):
+            t0 = time.process_time()
+            plan = plan_for_audit(site, audit)
+            runs.append(time.process_time() - t0)
         if plan is not None:
-            plan_s[e.id] = time.perf_counter() - t0
+            plan_s[e.id] = min(runs)
     n = len(site.records.enclosures)
     print(f"interval_ms_per_enclosure={statistics.median(interval_ms):.2f}")
     print(f"planned_enclosures={len(plan_s)}")
     if plan_s:
         print(f"plan_s_per_planned_enclosure={statistics.median(plan_s.values()):.2f}")
         print(f"plan_s_max={max(plan_s.values()):.2f}")
-    print(f"plan_s_per_enclosure={sum(plan_s.values()) / n:.2f}")
+    print(f"plan_s_per_enclosure={sum(plan_s.values()) / n:.3f}")
     for k, v in plan_s.items():
         print(f"plan_s_{k}={v:.2f}")
 
 
 if __name__ == "__main__":
-    main()
+    main(int(sys.argv[sys.argv.index("--repeats") + 1]) if "--repeats" in sys.argv else 3)

@@ -22,6 +22,7 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -191,7 +192,7 @@ def _series_stats(pairs, n_steps, step_s, uvi_range, mask):
     fractions = fractions[np.any(fractions > 0, axis=1)]
     if len(fractions) == 0:
         return integral, peak, exposed, in_range
-    combos, counts = np.unique(fractions, axis=0, return_counts=True)
+    combos, counts = _distinct_steps(fractions.tobytes(), fractions.shape[1])
     values = [v for v, _ in pairs]
     expand = (1,) * len(shape)
     for a in range(0, len(combos), _CHUNK):
@@ -207,6 +208,16 @@ def _series_stats(pairs, n_steps, step_s, uvi_range, mask):
             lo, hi = uvi_range
             in_range += ((on & (block >= lo) & (block <= hi)) * weight).sum(axis=0) * step_s
     return integral, peak, exposed, in_range
+
+
+@lru_cache(maxsize=32)
+def _distinct_steps(key: bytes, n_lamps: int):
+    """Distinct rows of a (steps, lamps) fraction table and their counts (memoised: every
+    place and candidate of one day shares its table; the arrays are read-only)."""
+    combos, counts = np.unique(np.frombuffer(key).reshape(-1, n_lamps), axis=0,
+                               return_counts=True)
+    combos.flags.writeable = counts.flags.writeable = False
+    return combos, counts
 
 
 def _scalar(x):
@@ -253,6 +264,11 @@ def integrate_daily_dose(
     :func:`audit_lib.light.metrics.erythemal_from_uv_index`); SED = dose / 100 J m-2 (CIE S 007).
     """
     fractions, step_s = _profile_fractions(profiles)
+    return _daily_dose(uvi_full, fractions, step_s, vitamin_d_w_m2_full, uvi_range, active)
+
+
+def _daily_dose(uvi_full, fractions, step_s, vitamin_d_w_m2_full, uvi_range, active):
+    """:func:`integrate_daily_dose` with the profiles already normalised."""
     n = int(round(DAY_S / step_s))
     uvi_range = _check_range(uvi_range)
     pairs = _contributions(uvi_full, fractions, "uvi_full")
@@ -328,7 +344,10 @@ def active_steps(budget: TimeBudget, profiles) -> np.ndarray:
     ndarray of bool
         One value per time step.
     """
-    fractions, step_s = _profile_fractions(profiles)
+    return _active_steps(budget, *_profile_fractions(profiles))
+
+
+def _active_steps(budget, fractions, step_s):
     n = int(round(DAY_S / step_s))
     if budget.active_from is None:
         return np.any(np.vstack(list(fractions.values())) > 0, axis=0)
@@ -344,6 +363,7 @@ def integrate_time_budget(
     *,
     vitamin_d_by_position=None,
     uvi_range=None,
+    with_table: bool = True,
 ):
     """Daily doses of an animal that shares its active day between positions.
 
@@ -359,6 +379,8 @@ def integrate_time_budget(
         The same for vitamin-D-weighted irradiance [W m-2].
     uvi_range : (float, float), optional
         Target UV Index range [-].
+    with_table : bool
+        Build ``per_position`` (False: None, when only the animal's figures are needed).
 
     Returns
     -------
@@ -366,7 +388,7 @@ def integrate_time_budget(
         Share-weighted doses and hours in range; ``peak_uvi`` is the highest UV Index of any
         position used; ``mean_uvi_exposed`` is the share-weighted mean over the active hours;
         ``exposed_hours`` the active hours.
-    per_position : pandas.DataFrame
+    per_position : pandas.DataFrame or None
         One row per position: ``share``, and the position's doses within the active day.
 
     Notes
@@ -383,37 +405,33 @@ def integrate_time_budget(
             field="uvi_full_by_position",
             hint=f"known positions: {sorted(uvi_full_by_position)}",
         )
-    mask = active_steps(budget, profiles)
-    _, step_s = _profile_fractions(profiles)
+    fractions, step_s = _profile_fractions(profiles)
+    mask = _active_steps(budget, fractions, step_s)
     active_h = float(mask.sum() * step_s / 3600.0)
     rows = {}
     for pos, share in budget.shares.items():
         vit = None if vitamin_d_by_position is None else vitamin_d_by_position[pos]
-        d = integrate_daily_dose(
-            uvi_full_by_position[pos],
-            profiles,
-            vitamin_d_w_m2_full=vit,
-            uvi_range=uvi_range,
-            active=mask,
-        )
+        d = _daily_dose(uvi_full_by_position[pos], fractions, step_s, vit, uvi_range, mask)
         rows[pos] = {"share": float(share), **_dose_row(d)}
-    table = pd.DataFrame.from_dict(rows, orient="index")
-    table.index.name = "position"
-    w = table["share"].to_numpy()
+    columns = {k: np.array([r[k] for r in rows.values()], dtype=float)
+               for k in next(iter(rows.values()))}
+    table = (pd.DataFrame(columns, index=pd.Index(list(rows), name="position"))
+             if with_table else None)
+    w = columns["share"]
 
     def wsum(col):
-        return float(np.sum(w * table[col].to_numpy()))
+        return float(np.sum(w * columns[col]))
 
     erythemal = wsum("erythemal_j_m2")
-    uvi_hours = float(np.sum(w * table["mean_uvi_exposed"] * table["exposed_hours"]))
-    used = table[table["share"] > 0]
+    uvi_hours = float(np.sum(w * columns["mean_uvi_exposed"] * columns["exposed_hours"]))
+    used = columns["peak_uvi"][w > 0]
     animal = DailyDose(
         erythemal_j_m2=erythemal,
         sed=erythemal / SED_J_M2,
         vitamin_d_j_m2=wsum("vitamin_d_j_m2"),
         hours_in_range=wsum("hours_in_range"),
         exposed_hours=active_h,
-        peak_uvi=float(used["peak_uvi"].max()) if len(used) else 0.0,
+        peak_uvi=float(used.max()) if len(used) else 0.0,
         mean_uvi_exposed=uvi_hours / active_h if active_h > 0 else 0.0,
         uvi_range=_check_range(uvi_range),
     )

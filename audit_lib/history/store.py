@@ -525,10 +525,15 @@ def read_lamp_readings(db_path: str | PathLike, enclosure: str, lamp: str,
     return frame
 
 
-def read_all_readings(db_path: str | PathLike) -> pd.DataFrame:
-    """Return every stored reading, oldest first (columns :data:`READING_COLUMNS`)."""
+def read_all_readings(db_path: str | PathLike, enclosure: str | None = None) -> pd.DataFrame:
+    """Return every stored reading, oldest first (columns :data:`READING_COLUMNS`).
+
+    ``enclosure`` keeps only that enclosure's (read through the store's index, so one
+    enclosure of a large collection does not read the whole history).
+    """
+    where, params = ("WHERE enclosure = ? ", (enclosure,)) if enclosure is not None else ("", ())
     frame = _query(db_path, f"SELECT {', '.join(READING_COLUMNS)} FROM readings "
-                            "ORDER BY date, id")
+                            f"{where}ORDER BY date, id", params)
     frame["date"] = pd.to_datetime(frame["date"])
     return frame
 

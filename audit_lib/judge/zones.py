@@ -87,6 +87,26 @@ class SpeciesTarget:
     native_latitude_deg: float | None = None
 
 
+#: Tables read in this process: path -> (size, mtime, table).
+_TABLES: dict = {}
+
+
+def _read_table(path: Path, options: dict):
+    """A ``#``-commented CSV as a DataFrame, read once per process while the file is unchanged.
+
+    Every enclosure of a batch judges against the same zone and species tables; a copy is
+    returned, so a caller cannot change the next one's.
+    """
+    import pandas as pd
+
+    st = path.stat()
+    stamp = (st.st_size, st.st_mtime_ns)
+    key = (str(path), repr(sorted(options.items())))
+    if _TABLES.get(key, (None,))[0] != stamp:
+        _TABLES[key] = (stamp, pd.read_csv(path, comment="#", **options))
+    return _TABLES[key][1].copy()
+
+
 def read_zone_table(path=None) -> dict[int, Zone]:
     """The Ferguson zone table.
 
@@ -100,10 +120,8 @@ def read_zone_table(path=None) -> dict[int, Zone]:
     -------
     dict of int to Zone
     """
-    import pandas as pd
-
     path = Path(path) if path is not None else DATA_DIR / "ferguson_zones.csv"
-    table = pd.read_csv(path, comment="#")
+    table = _read_table(path, {})
     zones = {}
     for row in table.itertuples(index=False):
         zones[int(row.zone)] = Zone(
@@ -132,10 +150,8 @@ def read_species_table(path=None):
     -------
     pandas.DataFrame
     """
-    import pandas as pd
-
     path = Path(path) if path is not None else DATA_DIR / "species_demo.csv"
-    table = pd.read_csv(path, comment="#", dtype={"id": str}, keep_default_na=False)
+    table = _read_table(path, {"dtype": {"id": str}, "keep_default_na": False})
     bad = table[~table["uv_provision"].isin(list(UV_PROVISION_LABELS))]
     if len(bad):
         raise InputError(

@@ -358,11 +358,38 @@ def clear_sky_uvi_day(
     """
     import pandas as pd
 
+    time_h, sza, uvi = _remembered(_uvi_day_arrays, latitude_deg, longitude_deg, date,
+                                   ozone_du, utc_offset_h, step_s)
+    return pd.DataFrame({"time_h": time_h, "solar_zenith_deg": sza, "uvi": uvi}, copy=True)
+
+
+def _uvi_day_arrays(latitude_deg, longitude_deg, date, ozone_du, utc_offset_h, step_s):
     t_s = (np.arange(int(round(86400 / step_s))) + 0.5) * step_s
     sza = solar_zenith_deg(latitude_deg, longitude_deg, date, t_s / 60.0, utc_offset_h)
-    return pd.DataFrame(
-        {"time_h": t_s / 3600.0, "solar_zenith_deg": sza, "uvi": clear_sky_uvi(sza, ozone_du)}
-    )
+    return t_s / 3600.0, sza, clear_sky_uvi(sza, ozone_du)
+
+
+#: Results of the sun's reference days already computed in this process, by their arguments.
+_DAYS: dict = {}
+
+
+def _remembered(compute, *args):
+    """``compute(*args)``, computed once per process for plain scalar arguments.
+
+    The sun's reference days depend only on the place and the date, not on the enclosure:
+    every enclosure of a site (and every month of its year table) asks for the same few,
+    so a batch worker computes each once. Arrays and other unhashable arguments are
+    simply computed.
+    """
+    scalar = all(isinstance(a, (int, float, np.floating, np.integer, dt.date)) for a in args)
+    if not scalar:
+        return compute(*args)
+    key = (compute.__name__, *(a if isinstance(a, dt.date) else float(a) for a in args))
+    if key not in _DAYS:
+        if len(_DAYS) > 20_000:
+            _DAYS.clear()
+        _DAYS[key] = compute(*args)
+    return _DAYS[key]
 
 
 def clear_sky_daily_dose_sed(latitude_deg, date, *, ozone_du=REFERENCE_OZONE_DU) -> float:
@@ -387,8 +414,12 @@ def clear_sky_daily_dose_sed(latitude_deg, date, *, ozone_du=REFERENCE_OZONE_DU)
     Integrates :func:`clear_sky_uvi_day` at 1-minute steps; WHO (2002) for the UV Index
     scale, CIE S 007/E-1998 for the SED.
     """
-    day = clear_sky_uvi_day(latitude_deg, 0.0, date, ozone_du=ozone_du, step_s=60.0)
-    return float(np.sum(erythemal_from_uv_index(day["uvi"].to_numpy())) * 60.0 / SED_J_M2)
+    return _remembered(_daily_dose_sed, latitude_deg, date, ozone_du)
+
+
+def _daily_dose_sed(latitude_deg, date, ozone_du) -> float:
+    _, _, uvi = _uvi_day_arrays(latitude_deg, 0.0, date, ozone_du, 0.0, 60.0)
+    return float(np.sum(erythemal_from_uv_index(uvi)) * 60.0 / SED_J_M2)
 
 
 def _zone(time_zone, utc_offset_h):

@@ -200,7 +200,7 @@ def open_enclosure(site_dir, enclosure_id: str = "", *, audit_date: str = "",
     if not 0.0 <= float(emitter_failure_probability) <= 1.0:
         raise InputError(f"probability {emitter_failure_probability!r} is outside 0-1",
                          field="emitter_failure_probability")
-    site = load_site(site_dir)
+    site = load_site(site_dir, reuse=True)  # the batch kernel's last load, if unchanged
     choose_audit_date(site, audit_date or None)
     ids = [e.id for e in site.records.enclosures]
     if not ids:
@@ -244,16 +244,31 @@ def audit_enclosure(site, enclosure_id: str, *, audit_date=None,
                          with_failures=with_failures)
 
 
-def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
-                     emitter_failure_probability, with_failures) -> EnclosureAudit:
-    """Run the audit's own stages around the shared downstream.
+def audit_findings(site, enclosure_id: str, *, audit_date=None,
+                   spacing_m: float = DEFAULT_SPACING_M):
+    """The audit's figures, checks and verdict alone, without the report's other sections.
 
-    Calibration, full maps, the sun, lamp forecasts and failures are the audit's; the rest
-    is :func:`audit_lib.pipeline.findings.find_figures`.
+    Left out: the surface table, month by month, the sun's day, the failure study. The
+    same stages as :func:`audit_enclosure` up to and including the shared downstream, so
+    its checks are the report's; for the previous audit's comparison, which shows only the
+    verdict and the checks of that day.
+
+    Returns
+    -------
+    audit_lib.pipeline.findings.Findings
+        The library's warnings on the way are among its notes.
     """
+    def compute():
+        stages = _findings_stages(site, enclosure_id, choose_audit_date(site, audit_date),
+                                  spacing_m)
+        return stages["found"]
+
+    return collect_notes(compute)
+
+
+def _findings_stages(site, enclosure_id: str, day, spacing_m) -> dict:
+    """Scene, calibration to the day's readings, lamp forecasts and the shared downstream."""
     record = site.enclosure(enclosure_id)
-    info = site.records.site
-    day = choose_audit_date(site, audit_date)
     known = targets.species_targets(site.records.species)
     species = [known[s] for s in record.species if s in known]
     zones = targets.read_zone_table()
@@ -293,6 +308,27 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
                          unknown_species=[s for s in record.species if s not in known],
                          target_settings=targets.TargetSettings.from_record(site.records.targets),
                          uncertainty=audit_uncertainty(site, enclosure_id, day, points))
+    return {"record": record, "species": species, "scene": scene, "failed": failed,
+            "maps": maps, "points": points, "calibration": calibration, "notes": notes,
+            "schedules": schedules, "profiles": profiles, "lamp_spectra": lamp_spectra,
+            "spectra": spectra, "lamps": lamps, "decays": decays, "found": found}
+
+
+def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
+                     emitter_failure_probability, with_failures) -> EnclosureAudit:
+    """Run the audit's own stages around the shared downstream.
+
+    Calibration, full maps, the sun, lamp forecasts and failures are the audit's; the rest
+    is :func:`audit_lib.pipeline.findings.find_figures`.
+    """
+    info = site.records.site
+    day = choose_audit_date(site, audit_date)
+    stages = _findings_stages(site, enclosure_id, day, spacing_m)
+    record, species, scene, failed = (stages[k] for k in ("record", "species", "scene",
+                                                          "failed"))
+    maps, points, calibration, notes = (stages[k] for k in ("maps", "points", "calibration",
+                                                            "notes"))
+    schedules, profiles, found = stages["schedules"], stages["profiles"], stages["found"]
     zone = found.zone
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
     stats = statistics_table(maps, uvi_range=max_range,
@@ -334,8 +370,9 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
         client=info.client, logo_path=str(site.path_of(info.logo)) if info.logo else None,
         findings=found, scene=scene, calibration=calibration, maps=maps,
         surface_stats=stats, points=points, daily=daily, monthly=monthly, natural=natural,
-        failures=failures, failure_study=monte_carlo, lamps=lamps, decays=decays,
-        spectra=spectra, lamp_spectra=lamp_spectra, notes=notes + found.notes,
+        failures=failures, failure_study=monte_carlo, lamps=stages["lamps"],
+        decays=stages["decays"], spectra=stages["spectra"],
+        lamp_spectra=stages["lamp_spectra"], notes=notes + found.notes,
         provenance=_provenance(site, enclosure_id, spacing_m, day))
 
 

@@ -221,7 +221,8 @@ def short_uvb_fraction(spectra_metrics: dict) -> float | None:
 def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles,
                  spectra_metrics, audit_date, spacing_m, main_lamp=None,
                  replacement_date=None, unknown_species=(), cache=None,
-                 cache_key=None, target_settings=None, uncertainty=None) -> Findings:
+                 cache_key=None, target_settings=None, uncertainty=None,
+                 checks_only=False) -> Findings:
     """From one enclosure's UV Index maps to its figures, checks, verdict and actions.
 
     Parameters
@@ -263,6 +264,10 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
     uncertainty : OutputUncertainty, optional
         Uncertainty of ``scale``: each check gets its 90 % interval and the borderline rule
         (none without it).
+    checks_only : bool
+        Only what the checks need (the plan search scores candidates so): the checks and
+        verdicts are the same; the actions lack the mount height, and the basking dose, the
+        daily curve and the vitamin-D doses are left out.
 
     Returns
     -------
@@ -292,18 +297,19 @@ def find_figures(record, scene, maps, *, failed, scale, species, zones, profiles
             record, scene, maps, failed, scale)
     if profiles is not None:
         found.light_hours = lit_hours_of_table(profiles)
-        found.daily_uvi = uvi_series(uvi_peak, profiles)
-        found.basking_dose = integrate_daily_dose(uvi_peak, profiles,
-                                                  vitamin_d_w_m2_full=vitd_peak,
-                                                  uvi_range=max_range)
-        _time_budget(found, record, scene, failed, scale, zone, cache, cache_key)
+        if not checks_only:
+            found.daily_uvi = uvi_series(uvi_peak, profiles)
+            found.basking_dose = integrate_daily_dose(uvi_peak, profiles,
+                                                      vitamin_d_w_m2_full=vitd_peak,
+                                                      uvi_range=max_range)
+        _time_budget(found, record, scene, failed, scale, zone, cache, cache_key, checks_only)
     found.keeper_limit_s = cache("keeper", (cache_key, failed),
                                  lambda: keeper_limit(scene, record, failed))
     found.short_uvb_fraction = short_uvb_fraction(spectra_metrics)
     if uncertainty is not None:
         found.intervals = figure_intervals(found, maps["floor"].values["uvi"], uncertainty)
     _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key, maps)
+           replacement_date, cache, cache_key, maps, not checks_only)
     return found
 
 
@@ -349,7 +355,8 @@ def figure_intervals(found: Findings, floor_uvi, uncertainty: OutputUncertainty)
     return out
 
 
-def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) -> None:
+def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key,
+                 checks_only=False) -> None:
     """The animal's doses and mean UV Index from the enclosure's time budget."""
     if not record.time_budget:
         return
@@ -375,12 +382,13 @@ def _time_budget(found, record, scene, failed, scale, zone, cache, cache_key) ->
     mean_range = (zone.mean_uvi_low, zone.mean_uvi_high) if zone else None
     found.animal_dose, _ = integrate_time_budget(
         TimeBudget(shares=dict(record.time_budget)), by_place, found.profiles,
-        vitamin_d_by_position=vitd, uvi_range=mean_range)
+        vitamin_d_by_position=None if checks_only else vitd, uvi_range=mean_range,
+        with_table=False)
     found.mean_uvi = float(found.animal_dose.mean_uvi_exposed)
 
 
 def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, main_lamp,
-           replacement_date, cache, cache_key, maps) -> None:
+           replacement_date, cache, cache_key, maps, search_height=True) -> None:
     """Checks, verdicts and actions of every species; the overall state and reason."""
     main = None
     if scene.lamps:
@@ -393,7 +401,7 @@ def _judge(found, record, scene, zones, failed, scale, audit_date, spacing_m, ma
             return cache("height", key, lambda: height_for_target(
                 scene, main.id, surface, uvi_range, aim_uvi=aim, failed=failed,
                 scale=scale, spacing_m=spacing_m))
-        return height_search if main is not None else None
+        return height_search if main is not None and search_height else None
 
     def surface_of(species):  # where the species' UV Index top check is made
         if species.uv_provision == "gradient" and found.used_area_place in maps:

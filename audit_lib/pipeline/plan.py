@@ -19,8 +19,11 @@ pairs of them, on coarse grids. Dimming and light hours need no map of their own
 figures are linear in output, so for each placement the dimming that centres the output
 inside every output-dependent target (interval included) is solved directly
 (:func:`output_share_range`), and light hours are set to the middle of their target around
-the present light period's centre. The first plan the planner confirms wins; ties go to the
-widest margin. When no candidate resolves every check, the plan is the best compromise
+the present light period's centre. Every candidate is first screened by the same planner on
+a grid :data:`SCREEN_COARSENING` times coarser, checks only (no actions, doses or daily
+curve: :func:`audit_lib.pipeline.findings.find_figures`); the :data:`CONFIRMED` best are
+judged again on the planner's own grid and the best of those wins (ties: the one tried
+first). When no candidate resolves every check, the plan is the best compromise
 (fewest checks left outside, then the largest share of checks within range) and ``reason``
 says in one sentence which checks nothing at the site can fix.
 
@@ -29,6 +32,7 @@ Only the enclosure's main lamp (the one giving most UV at the basking peak) is p
 
 from __future__ import annotations
 
+import copy
 import math
 from dataclasses import dataclass, field
 from itertools import combinations
@@ -38,7 +42,7 @@ import numpy as np
 from audit_lib.judge import targets
 from audit_lib.judge.verdicts import ATTENTION
 from audit_lib.pipeline.audit import audit_enclosure
-from audit_lib.pipeline.planner import WhatIfPlanner
+from audit_lib.pipeline.planner import SITE_WIDE, WhatIfPlanner
 
 #: Kinds of plan action (stable: ``results.json`` carries them).
 PLAN_ACTION_KINDS = ("mount height", "position", "dimming", "emitters", "lamp model", "screen",
@@ -269,8 +273,82 @@ def _rank(entry):
     return (0, changes, score) if score[0] == 0 else (1, score, changes)
 
 
+#: The search screens candidates on a grid this many times coarser than the planner's.
+SCREEN_COARSENING = 2
+#: Best screened candidates judged again on the planner's own grid; the best of them wins.
+CONFIRMED = 3
+
+
+def _judge(planner, base, kinds, change):
+    """A candidate judged by ``planner``: (score, changes, kinds, settings, placement)."""
+    planner.config = base
+    result = planner.update(checks_only=True, **change)
+    extra, more = _complete(planner, result)
+    if more:
+        result = planner.update(checks_only=True, **more)
+    return (_score(result.checks), len(kinds) + len(extra), (*kinds, *extra),
+            {**change, **more}, (kinds, change))
+
+
+def _search(planner, base, checks) -> list:
+    """Every candidate the search tries, judged by ``planner``, in the order tried."""
+    needed = _needed(checks)
+    options = _options(planner, base)
+    tried = {}
+
+    def judge(kinds, change):
+        key = tuple(sorted(change.items()))
+        if key not in tried:
+            tried[key] = _judge(planner, base, kinds, change)
+        return tried[key]
+
+    def covers(kinds):
+        return all(set(kinds) & need for need in needed)
+
+    best = judge((), {})
+    singles = {}
+    if best[0][0]:
+        for kind, values in options.items():
+            for change in values:
+                entry = judge((kind,), change)
+                if entry[0] < singles.get(kind, ((math.inf,),))[0]:
+                    singles[kind] = entry
+                best = min(best, entry, key=_rank)
+    hopeless = _too_narrow(planner, _outside(checks))
+    if best[0][0] and not hopeless:  # pairs only when a plan can resolve every check
+        for a, b in combinations(options, 2):
+            if {a, b} == {"emitters", "lamp model"} or not covers((a, b)):
+                continue
+            pairs = [({**singles[a][3], **cb}) for cb in _coarse(options[b]) if a in singles]
+            pairs += [({**ca, **singles[b][3]}) for ca in _coarse(options[a]) if b in singles]
+            for change in pairs:
+                change = {k: v for k, v in change.items()
+                          if k not in ("on", "off", "ramp_minutes") and
+                          not (k == "output_share" and v != 1.0)}
+                best = min(best, judge((a, b), change), key=_rank)
+    planner.config = base
+    return list(tried.values())
+
+
+def _screening_planner(planner: WhatIfPlanner) -> WhatIfPlanner:
+    """The planner on a grid :data:`SCREEN_COARSENING` times coarser (same code, same
+    checks; lamps, spectra and schedules shared with ``planner``)."""
+    screen = copy.copy(planner)
+    if planner.spacing_m is not None:
+        screen.spacing_m = planner.spacing_m * SCREEN_COARSENING
+    screen.shape = tuple(max(8, n // SCREEN_COARSENING) for n in planner.shape)
+    screen._cache = {k: planner._cache.setdefault(k, {})
+                     for k in (*SITE_WIDE, "spectra", "profiles", "sun")}
+    screen.result = None
+    return screen
+
+
 def find_plan(planner: WhatIfPlanner, checks_before=None) -> Plan:
     """The smallest set of changes to the planner's present plan that fixes every check.
+
+    Candidates are screened on a coarser grid (:func:`_screening_planner`); the
+    :data:`CONFIRMED` best are judged again by ``planner`` itself, so the plan and its
+    ``checks_after`` are the planner's own.
 
     Parameters
     ----------
@@ -287,51 +365,11 @@ def find_plan(planner: WhatIfPlanner, checks_before=None) -> Plan:
     base = planner.config
     start = planner.result or planner.update()
     before = list(checks_before if checks_before is not None else start.checks)
-    needed = _needed(start.checks)
-    options = _options(planner, base)
-    tried = {}
-
-    def judge(kinds, change):
-        key = tuple(sorted(change.items()))
-        if key in tried:
-            return tried[key]
-        planner.config = base
-        result = planner.update(**change)
-        extra, more = _complete(planner, result)
-        if more:
-            result = planner.update(**more)
-        entry = (_score(result.checks), len(kinds) + len(extra), (*kinds, *extra),
-                 {**change, **more})
-        tried[key] = entry
-        return entry
-
-    def covers(kinds):
-        return all(set(kinds) & need for need in needed)
-
-    best = judge((), {})
-    singles = {}
-    if best[0][0]:
-        for kind, values in options.items():
-            for change in values:
-                entry = judge((kind,), change)
-                if entry[0] < singles.get(kind, ((math.inf,),))[0]:
-                    singles[kind] = entry
-                best = min(best, entry, key=_rank)
-    hopeless = _too_narrow(planner, _outside(start.checks))
-    if best[0][0] and not hopeless:  # pairs only when a plan can resolve every check
-        for a, b in combinations(options, 2):
-            if {a, b} == {"emitters", "lamp model"} or not covers((a, b)):
-                continue
-            pairs = [({**singles[a][3], **cb}) for cb in _coarse(options[b]) if a in singles]
-            pairs += [({**ca, **singles[b][3]}) for ca in _coarse(options[a]) if b in singles]
-            for change in pairs:
-                change = {k: v for k, v in change.items()
-                          if k not in ("on", "off", "ramp_minutes") and
-                          not (k == "output_share" and v != 1.0)}
-                entry = judge((a, b), change)
-                best = min(best, entry, key=_rank)
+    screened = _search(_screening_planner(planner), base, start.checks)
+    top = sorted(screened, key=_rank)[:CONFIRMED]  # ties keep the order tried
+    best = min((_judge(planner, base, *entry[4]) for entry in top), key=_rank)
     planner.config = base
-    score, _, kinds, settings = best
+    score, _, kinds, settings, _ = best
     result = planner.update(**settings)  # the plan as the what-if panel shows it
     return _plan(planner, base, before, kinds, settings, result)
 

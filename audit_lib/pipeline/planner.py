@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import datetime as dt
 import time
+import weakref
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -42,12 +43,27 @@ from audit_lib.pipeline.scenarios import (
     screen_records,
     with_blank,
 )
-from audit_lib.pipeline.steps import lamp_spectra, sun_place
+from audit_lib.pipeline.steps import lamp_spectra, only_lamp, sun_place
 from audit_lib.scene.maps import compute_maps, evaluate_points, surface_grid, surface_statistics
 from audit_lib.sources.lamps import LedArray, OutsideMeasuredRangeWarning
 
 #: Map grid of the panel (ny, nx) on the floor; other surfaces use the same cell size.
 DEFAULT_SHAPE = (100, 100)
+#: Cache kinds shared by every planner of one loaded site (they depend on the lamp model only).
+SITE_WIDE = ("lamp", "model metrics")
+#: Cache kinds holding whole maps, kept for a few placements only (memory).
+MAP_SIZED = ("maps", "split")
+
+_site_caches: dict = {}
+
+
+def _site_cache(site) -> dict:
+    """The caches of :data:`SITE_WIDE` kinds for one loaded site (dropped with the site)."""
+    key = id(site)
+    if key not in _site_caches:
+        _site_caches[key] = {kind: {} for kind in SITE_WIDE}
+        weakref.finalize(site, _site_caches.pop, key, None)
+    return _site_caches[key]
 
 
 @dataclass
@@ -153,7 +169,7 @@ class WhatIfPlanner:
 
         self._species = species_targets(site.records.species)
         self._zones = read_zone_table()
-        self._cache: dict = {}
+        self._cache: dict = dict(_site_cache(site))
         self._site_lamps: dict = {}  # lamp models other than the planned one, as the site has them
         self.result: PlanResult | None = None
 
@@ -203,7 +219,7 @@ class WhatIfPlanner:
     def _cached(self, kind, key, build):
         slot = self._cache.setdefault(kind, {})
         if key not in slot:
-            if len(slot) > 8:
+            if kind not in SITE_WIDE and len(slot) > (8 if kind in MAP_SIZED else 64):
                 slot.clear()
             slot[key] = build()
         return slot[key]
@@ -273,7 +289,7 @@ class WhatIfPlanner:
 
     # --- update ---------------------------------------------------------------------------
 
-    def update(self, **changes) -> PlanResult:
+    def update(self, *, checks_only: bool = False, **changes) -> PlanResult:
         """Change some plan settings and recompute; returns the new :class:`PlanResult`.
 
         Parameters
@@ -283,6 +299,9 @@ class WhatIfPlanner:
             ``failed_emitters=(3,)``, ``species="..."``, ``on="08:00"``...). A new ``lamp``
             (another placed lamp of the enclosure) starts from that lamp as the site has it;
             the changes made to the previous lamp are dropped.
+        checks_only : bool
+            Only what the checks need (:func:`audit_lib.pipeline.findings.find_figures`;
+            :func:`audit_lib.pipeline.plan.find_plan` scores candidates so).
 
         Raises
         ------
@@ -302,12 +321,13 @@ class WhatIfPlanner:
                                                        if 1 <= k <= n))
 
         # a lamp used outside its measured range is reported once per surface from the maps
-        result = collect_notes(self._compute, config, ignore=(OutsideMeasuredRangeWarning,))
+        result = collect_notes(self._compute, config, checks_only,
+                               ignore=(OutsideMeasuredRangeWarning,))
         self.config = config
         self.result = result
         return result
 
-    def _compute(self, c: PlanConfig) -> PlanResult:
+    def _compute(self, c: PlanConfig, checks_only: bool = False) -> PlanResult:
         t0 = time.perf_counter()
         site = self.planned_site(c)
         scene = self.scene(c, site)
@@ -330,7 +350,7 @@ class WhatIfPlanner:
                                         {p.id: lamp_schedule(site, p) for p in record.lamps},
                                         self.day))
         spectra = self._cached("spectra", (c.lamp, *self._lamp_key(c)),
-                               lambda: lamp_spectra(site, record, scene)[1])
+                               lambda: self._spectra_metrics(c, site, record, scene))
         t2 = time.perf_counter()
         found = find_figures(
             record, scene, maps, failed=failed, scale=share,
@@ -338,7 +358,7 @@ class WhatIfPlanner:
             spectra_metrics=spectra, audit_date=self.day,
             spacing_m=DEFAULT_SPACING_M, main_lamp=c.lamp,  # height search on the reports' grid
             cache=self._cached, cache_key=self._place_key(c), target_settings=settings,
-            uncertainty=self.uncertainty)
+            uncertainty=self.uncertainty, checks_only=checks_only)
         t3 = time.perf_counter()
         notes = [f"On {part:.0%} of {name!r} a lamp known from readings is used outside the "
                  "distances it was measured at: values there are extrapolated."
@@ -349,6 +369,19 @@ class WhatIfPlanner:
             timings_ms={"maps": 1e3 * (t1 - t0), "statistics": 1e3 * (t2 - t1),
                         "findings": 1e3 * (t3 - t2)},
             notes=notes + found.notes)
+
+    def _spectra_metrics(self, c, site, record, scene) -> dict:
+        """Spectrum metrics per lamp model of the planned enclosure: :func:`lamp_spectra`
+        one placed lamp at a time, each model's shared by every planner of the site."""
+        placed = {p.name: p for p in scene.lamps}
+        out = {}
+        for place in record.lamps:
+            if out.get(place.model) is None:
+                key = (place.model, self._lamp_key(c) if place.id == c.lamp else None)
+                out[place.model] = self._cached("model metrics", key, lambda p=place: lamp_spectra(
+                    site, record.model_copy(update={"lamps": [p]}),
+                    only_lamp(scene, placed[p.id]))[1].get(p.model))
+        return {m: v for m, v in out.items() if v is not None}
 
     def _sun(self, species=None):
         lat, lon, offset, _ = sun_place(self.site, [species] if species else [], self.day)

@@ -4,8 +4,9 @@ One source for each part: the date of the previous audit and the lamp readings o
 audits come from the history store (``SITE/history.sqlite``, kept up to date from the
 readings folder by :func:`audit_lib.history.sync.sync_site_history`); the previous audit's
 basking maximum, checks and verdict come from the same pipeline as every report
-(:func:`audit_lib.pipeline.audit.audit_enclosure` at the previous audit's date), so they are
-the figures a report of that day shows with this library version.
+(:func:`audit_lib.pipeline.audit.audit_findings`, the audit's stages up to its checks, at the
+previous audit's date), so they are the figures a report of that day shows with this library
+version.
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ import pandas as pd
 from audit_lib.errors import AuditError
 from audit_lib.history import store
 from audit_lib.history.sync import site_history_path
-from audit_lib.pipeline.audit import DEFAULT_SPACING_M, audit_enclosure
+from audit_lib.pipeline.audit import DEFAULT_SPACING_M, audit_findings
 
 
 @dataclass
@@ -30,9 +31,9 @@ class PreviousAudit:
     ----------
     audit_date : datetime.date or None
         Day of the previous audit on record; None when there is none.
-    audit : EnclosureAudit or None
-        The pipeline's audit of that day (no failure study); None when there is no previous
-        audit or its readings are no longer in the readings folder.
+    audit : Findings or None
+        The pipeline's figures, checks and verdict of that day; None when there is no
+        previous audit or its readings are no longer in the readings folder.
     readings : pandas.DataFrame
         UV Index readings of both audits from the history store, columns ``date``
         (datetime64), ``lamp``, ``position``, ``distance_m`` [m], ``value_si`` [-] (as read,
@@ -70,10 +71,9 @@ def previous_audit(site, enclosure_id: str, audit_date: dt.date, *,
         return PreviousAudit(None, missing="there is no history store of this site yet "
                                            "(a batch run creates it from the readings folder)")
     try:
-        readings = store.read_all_readings(path)
+        readings = store.read_all_readings(path, enclosure=enclosure_id)
     except (AuditError, OSError, ValueError) as exc:
         return PreviousAudit(None, missing=f"the history store cannot be read ({exc})")
-    readings = readings[readings["enclosure"] == enclosure_id]
     day = pd.Timestamp(audit_date)
     earlier = readings.loc[readings["date"] < day, "date"]
     if earlier.empty:
@@ -89,8 +89,8 @@ def previous_audit(site, enclosure_id: str, audit_date: dt.date, *,
                          "so its figures cannot be modelled again; its readings are shown")
         return found
     try:
-        found.audit = audit_enclosure(site, enclosure_id, audit_date=previous.date(),
-                                      spacing_m=spacing_m, with_failures=False)
+        found.audit = audit_findings(site, enclosure_id, audit_date=previous.date(),
+                                     spacing_m=spacing_m)
     except (AuditError, ValueError, ArithmeticError) as exc:  # the comparison is extra:
         # it never stops this audit's report
         found.missing = (f"that audit's figures could not be modelled again "

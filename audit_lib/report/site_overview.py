@@ -34,7 +34,7 @@ from audit_lib.report import formats as fmt
 from audit_lib.report.cautions import CAUTIONS
 from audit_lib.report.enclosure import REPORT_DATA_MIMETYPE, _badge, enclosure_results
 from audit_lib.report.formats import Column, HTMLBlock, header, html_table
-from audit_lib.report.style import PALETTE, STATE_COLOURS, new_figure
+from audit_lib.report.style import MARGINS_IN, PALETTE, STATE_COLOURS, new_figure
 
 COULD_NOT_AUDIT = "could not be audited"
 
@@ -181,19 +181,31 @@ def plot_basking_ranges(overview: SiteOverview):
              for e in overview.enclosures
              if (c := find_check(e, BASKING_UVI_MAX) or find_check(e, USED_AREA_UVI_MAX))
              is not None]
-    fig, ax = new_figure(7.5, max(2.5, 0.32 * len(found) + 1.0))
-    for i, (_, c) in enumerate(found):
-        high = c["target_high"] if c["target_high"] is not None else c["target_low"]
-        ax.plot([c["target_low"], high], [i, i], color=PALETTE["bluish green"], lw=8,
-                alpha=0.35, solid_capstyle="butt")
-        if c["value"] is not None:
-            marker = {"within range": "o", BELOW: "<", ABOVE: ">"}.get(c["state"], "s")
-            ax.plot(c["value"], i, marker=marker, color=STATE_COLOURS.get(c["state"], "#999999"),
-                    markersize=8, markeredgecolor="black")
-    ax.set_yticks(np.arange(len(found)), [i for i, _ in found], fontsize=8)
-    ax.invert_yaxis()
+    # one row per enclosure; rows closer together for a large collection (still one label
+    # each); bands and markers drawn as one collection each, so a few hundred rows stay cheap
+    row_in = 0.32 if len(found) <= 40 else 0.2
+    longest = max((len(label) for label, _ in found), default=0)
+    fig, ax = new_figure(7.5, max(2.5, row_in * len(found) + 1.0),
+                         margins_in=(max(MARGINS_IN[0], 0.25 + 0.065 * longest),
+                                     *MARGINS_IN[1:]))  # room for the longest 8 pt label
+    rows = np.arange(len(found))
+    low = [c["target_low"] for _, c in found]
+    high = [c["target_high"] if c["target_high"] is not None else c["target_low"]
+            for _, c in found]
+    ax.hlines(rows, low, high, color=PALETTE["bluish green"], lw=8 if row_in > 0.3 else 5,
+              alpha=0.35, capstyle="butt")
+    markers = {"within range": "o", BELOW: "<", ABOVE: ">"}
+    for state in {c["state"] for _, c in found}:
+        here = [(i, c["value"]) for i, (_, c) in enumerate(found)
+                if c["state"] == state and c["value"] is not None]
+        if here:
+            ax.scatter([v for _, v in here], [i for i, _ in here],
+                       marker=markers.get(state, "s"), s=64 if row_in > 0.3 else 30,
+                       color=STATE_COLOURS.get(state, "#999999"), edgecolors="black", zorder=3)
+    ax.set_yticks(rows, [i for i, _ in found], fontsize=8)
+    ax.set_ylim(len(found) - 0.5, -0.5)  # first enclosure on top, half a row around
     ax.set_xlabel("highest UV Index [-] at the basking patch, or over the area used (gradient)\n"
-                  "(band: zone range, from memory; ◀ below, ● within, ▶ above)")
+                  "(band: zone range, from memory; ◀ below, ● within, ▶ above, ■ borderline)")
     ax.grid(axis="x", alpha=0.3)
     ax.set_xlim(left=0)
     return fig

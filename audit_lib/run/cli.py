@@ -173,8 +173,12 @@ def _run_run(args) -> int:
         result = run_batch(args.site, args.out, jobs=args.jobs, only=args.only,
                            audit_date=args.audit_date, progress=not args.quiet,
                            pdf=args.pdf, keep_notebooks=args.keep_notebooks)
-    for failed in result.failures:
-        print(f"could not audit {failed.id}: {failed.error}", file=sys.stderr)
+    if args.quiet:  # with the progress bar each failure was printed as it happened
+        for failed in result.failures:
+            print(f"could not audit {failed.id}: {failed.error}", file=sys.stderr)
+    elif result.failures:
+        print(f"{len(result.failures)} workbook(s) could not be run (listed above); the index "
+              "lists them too", file=sys.stderr)
     for page, error in result.pdf_errors.items():
         print(f"could not print {page} to PDF: {error}", file=sys.stderr)
     print(result.index_path)

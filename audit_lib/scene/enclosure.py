@@ -11,6 +11,7 @@ Maps over these records are computed by :mod:`audit_lib.scene.maps`.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from functools import cached_property
 
 import numpy as np
 
@@ -168,6 +169,18 @@ class PlacedLamp:
         """The lamp's id in the enclosure."""
         return self.name or self.lamp.name
 
+    @cached_property
+    def source_groups(self) -> tuple[SourceGroup, ...]:
+        """The lamp's source groups moved into the enclosure frame, labels as in
+        :func:`placed_groups` (built once: the records are frozen, so it cannot go stale)."""
+        rot = rotation_matrix(self.azimuth_deg, self.tilt_deg)
+        origin = np.array([self.x_m, self.y_m, self.z_m], float)
+        led = isinstance(self.lamp, LedArray)
+        return tuple(replace(g, labels=tuple(f"{self.id}/{lab}" for lab in g.labels) if led
+                             else (self.id,) * len(g.labels),
+                             positions_m=g.positions_m @ rot.T + origin, axes=g.axes @ rot.T)
+                     for g in lamp_sources(self.lamp))
+
 
 @dataclass(frozen=True)
 class Enclosure:
@@ -248,28 +261,8 @@ def rotation_matrix(azimuth_deg: float, tilt_deg: float) -> np.ndarray:
 
 
 def placed_groups(enclosure: Enclosure) -> list[tuple[PlacedLamp, SourceGroup]]:
-    """Every lamp's source groups moved into the enclosure frame.
+    """Every lamp's source groups moved into the enclosure frame (built once per placed lamp).
 
     Labels become ``"<lamp id>/<emitter>"`` for LED arrays and ``"<lamp id>"`` otherwise.
     """
-    out = []
-    for placed in enclosure.lamps:
-        rot = rotation_matrix(placed.azimuth_deg, placed.tilt_deg)
-        origin = np.array([placed.x_m, placed.y_m, placed.z_m], float)
-        for g in lamp_sources(placed.lamp):
-            if isinstance(placed.lamp, LedArray):
-                labels = tuple(f"{placed.id}/{lab}" for lab in g.labels)
-            else:
-                labels = (placed.id,) * len(g.labels)
-            out.append(
-                (
-                    placed,
-                    replace(
-                        g,
-                        labels=labels,
-                        positions_m=g.positions_m @ rot.T + origin,
-                        axes=g.axes @ rot.T,
-                    ),
-                )
-            )
-    return out
+    return [(placed, g) for placed in enclosure.lamps for g in placed.source_groups]

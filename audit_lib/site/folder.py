@@ -32,7 +32,7 @@ from audit_lib.site.checks import (
     partial_site,
     readings_problems,
 )
-from audit_lib.site.files import file_problems
+from audit_lib.site.files import file_problems, named_files
 from audit_lib.site.messages import locate_keys, schema_problems
 from audit_lib.site.readings import (
     _as_frame,
@@ -83,6 +83,7 @@ class Site:
     root: Path
     records: SiteFile
     readings: pd.DataFrame = field(default_factory=lambda: read_readings_empty())
+    _by_enclosure: tuple | None = field(default=None, init=False, repr=False, compare=False)
 
     @property
     def name(self) -> str:
@@ -114,8 +115,16 @@ class Site:
         return self.root / name
 
     def readings_of(self, enclosure_id: str) -> pd.DataFrame:
-        """Return the readings of one enclosure."""
-        return self.readings[self.readings["enclosure"] == enclosure_id]
+        """Return the readings of one enclosure (a copy, in file order).
+
+        The table is split by enclosure once per site object: an audit asks for its
+        enclosure's readings several times, and a large site's table is long.
+        """
+        if self._by_enclosure is None or self._by_enclosure[0] is not self.readings:
+            groups = dict(iter(self.readings.groupby("enclosure", sort=False)))
+            self._by_enclosure = (self.readings, groups)
+        found = self._by_enclosure[1].get(enclosure_id)
+        return found.copy() if found is not None else self.readings.iloc[0:0].copy()
 
 
 def read_readings_empty() -> pd.DataFrame:
@@ -186,7 +195,8 @@ def _load(path: str | PathLike, today: dt.date | None) -> tuple[Site | None, lis
     return Site(root=root, records=records, readings=readings), []
 
 
-def load_site(path: str | PathLike, *, today: dt.date | None = None) -> Site:
+def load_site(path: str | PathLike, *, today: dt.date | None = None,
+              reuse: bool = False) -> Site:
     """Load and validate a site folder.
 
     Parameters
@@ -195,6 +205,13 @@ def load_site(path: str | PathLike, *, today: dt.date | None = None) -> Site:
         The site folder (holding ``site.toml``).
     today : datetime.date, optional
         The date after which dates count as "in the future" (default: today, UTC).
+    reuse : bool
+        Return the site this process loaded last from the same folder when none of the
+        files it read has changed since (:func:`site_fingerprint`), repeating the warnings
+        that load gave. A batch kernel audits one enclosure after another of one site:
+        loading and validating a 300-enclosure site costs most of a second, the same for
+        every enclosure. The site is shared, so it must be treated as read-only (the
+        library only ever derives new records from it).
 
     Returns
     -------
@@ -205,9 +222,60 @@ def load_site(path: str | PathLike, *, today: dt.date | None = None) -> Site:
     InputErrors
         Every problem found, each with file, line or key path, and hint.
     """
+    if reuse:
+        return _reused(path, today)
     site, problems = _load(path, today)
     if problems:
         raise InputErrors(problems)
+    return site
+
+
+def site_fingerprint(root: Path, records: SiteFile | None = None) -> tuple:
+    """Name, size and modification time of every file a load of ``root`` reads [-, B, ns].
+
+    ``site.toml``, every readings file and, given the records loaded from that
+    ``site.toml``, every file it names (spectra, meter responses, screens, logo).
+    """
+    def stamp(path: Path):
+        try:
+            st = path.stat()
+        except OSError:
+            return (str(path), None, None)
+        return (str(path), st.st_size, st.st_mtime_ns)
+
+    paths = [root / SITE_FILE, *readings_files(root / "readings")]
+    if records is not None:
+        paths += [root / name for _, name, _ in named_files(records)]
+    return tuple(stamp(p) for p in paths)
+
+
+#: The site last loaded with ``reuse=True``: key, fingerprint, site and its warnings.
+_LAST: dict = {}
+
+
+def _reused(path: str | PathLike, today: dt.date | None) -> Site:
+    root = Path(path).resolve()
+    if root.name == SITE_FILE and root.is_file():
+        root = root.parent
+    key = (root, today or dt.datetime.now(dt.timezone.utc).date())
+    if _LAST.get("key") == key and _LAST["fingerprint"] == site_fingerprint(
+            root, _LAST["site"].records):
+        for text in _LAST["warnings"]:
+            warnings.warn(text, SiteWarning, stacklevel=3)
+        return _LAST["site"]
+    _LAST.clear()
+    before = site_fingerprint(root)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", SiteWarning)
+        site, problems = _load(root, today)
+    texts = [str(w.message) for w in caught if issubclass(w.category, SiteWarning)]
+    for w in caught:
+        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    if problems:
+        raise InputErrors(problems)
+    if site_fingerprint(root) == before:  # not changed while it was being read
+        _LAST.update(key=key, fingerprint=site_fingerprint(root, site.records), site=site,
+                     warnings=texts)
     return site
 
 
