@@ -12,6 +12,8 @@ the angle dependence of screen transmission (normal-incidence values are used).
 
 from __future__ import annotations
 
+import math
+import sys
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
@@ -132,7 +134,8 @@ def evaluate_points(
             hint="labels look like '<lamp id>/<emitter name>' for LED arrays",
         )
     for placed, g in groups:
-        alive = np.array([lab not in failed for lab in g.labels], float)
+        alive = (np.array([lab not in failed for lab in g.labels], float) if failed
+                 else np.ones(len(g.labels)))
         gf = group_factors(g, pts, normal, planes, alive, keep=bool(per_source))
         if gf.factor is None and any(m is not True and m is not False for m in gf.screen_masks):
             gf = group_factors(g, pts, normal, planes, alive, keep=True)
@@ -162,7 +165,7 @@ def evaluate_points(
                 per = gf.factor if per is None else per
                 contributions[q].append(q_vec[k] * full[k] * per * alive[:, None])
         labels.extend(g.labels)
-        w_ref = np.nan_to_num(q_vec[0], nan=1.0) or 1.0
+        w_ref = _finite_or_one(q_vec[0])
         num_cos += w_ref * gf.factor_cos
         den += w_ref * gf.total
         if g.valid_range_m is not None:
@@ -180,6 +183,16 @@ def evaluate_points(
         tuple(labels),
         {q: np.vstack(c) if c else np.zeros((0, len(pts))) for q, c in contributions.items()},
     )
+
+
+def _finite_or_one(value) -> float:
+    """``numpy.nan_to_num(value, nan=1.0) or 1.0`` for one number (without its overhead)."""
+    value = float(value)
+    if math.isnan(value) or value == 0.0:
+        return 1.0
+    if math.isinf(value):
+        return math.copysign(sys.float_info.max, value)
+    return value
 
 
 def _outside(distance_m, valid, lit) -> np.ndarray:
