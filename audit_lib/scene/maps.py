@@ -16,6 +16,7 @@ import math
 import sys
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -246,17 +247,28 @@ def surface_grid(surface: Surface, spacing_m: float = 0.01, shape=None):
     x_m, y_m, points_m : numpy.ndarray
         (nx,), (ny,) and (ny * nx, 3) [m].
     """
+    if shape is None and spacing_m <= 0:
+        raise InputError("grid spacing must be positive", field="spacing_m")
+    if shape is None:
+        return _surface_grid(surface, float(spacing_m), None)
+    return _surface_grid(surface, 0.0, tuple(int(v) for v in shape))
+
+
+@lru_cache(maxsize=256)
+def _surface_grid(surface: Surface, spacing_m: float, shape):
+    """:func:`surface_grid`, kept per surface and grid (read-only arrays: the same surfaces
+    are gridded again for every placement the what-if planner tries)."""
     w = surface.x_max_m - surface.x_min_m
     d = surface.y_max_m - surface.y_min_m
     if shape is None:
-        if spacing_m <= 0:
-            raise InputError("grid spacing must be positive", field="spacing_m")
         shape = tuple(max(1, int(np.ceil(length / spacing_m - 1e-9))) for length in (d, w))
     ny, nx = (int(v) for v in shape)
     x = surface.x_min_m + (np.arange(nx) + 0.5) * w / nx
     y = surface.y_min_m + (np.arange(ny) + 0.5) * d / ny
     xx, yy = np.meshgrid(x, y)
     pts = np.column_stack([xx.ravel(), yy.ravel(), np.full(xx.size, surface.z_m)])
+    for a in (x, y, pts):
+        a.flags.writeable = False
     return x, y, pts
 
 
