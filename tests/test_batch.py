@@ -14,6 +14,7 @@ import io
 import json
 import math
 import os
+import re
 import shutil
 import signal
 import subprocess
@@ -129,6 +130,25 @@ def test_write_atomic_replaces_whole_file(tmp_path):
     write_atomic(target, "new " * 1000)
     assert target.read_text() == "new " * 1000
     assert [p.name for p in tmp_path.iterdir()] == ["a.html"]
+
+
+def test_page_cleaning_skips_embedded_figures_only():
+    """Machine paths around a figure's RFC 2397 ``data:`` URI are cleaned as in one piece
+    (``strip_machine_paths``); the base64 data (RFC 4648 alphabet, which holds ``/``) is
+    left whole."""
+    from audit_lib.report.paths import strip_machine_paths
+    from audit_lib.run.batch import _client_clean
+
+    known = {"/data/site/park": "park", "/data/out": ""}
+    page = ('<p>/data/site/park/readings.csv</p><img src="data:image/png;base64,AAAA/data/out/x'
+            'B+/=" alt="/home/u/fig.png">/data/out/reports/a.html (/usr/lib/x.py)'
+            "<div style=\"background:url(data:image/png;base64,/data/out/Z==)\">/data/out</div>")
+    cleaned = _client_clean(page, known)
+    assert "base64,AAAA/data/out/xB+/=" in cleaned and "base64,/data/out/Z==" in cleaned
+    outside = [strip_machine_paths(part, known) for part in re.split(
+        r"data:image/png;base64,[A-Za-z0-9+/=]+", page)]
+    assert re.split(r"data:image/png;base64,[A-Za-z0-9+/=]+", cleaned) == outside
+    assert "park/readings.csv" in cleaned and "reports/a.html (x.py)" in cleaned
 
 
 def test_unknown_only_id_is_rejected_before_running(tmp_path):

@@ -83,6 +83,26 @@ def test_report_header_escapes_and_embeds(tmp_path, exporter):
     assert CAUTIONS[3] in html and "site.toml (sha256 abc)" in html
 
 
+def test_report_figures_carry_a_text_alternative(tmp_path, exporter):
+    """Every figure (``<img>``) has an ``alt`` attribute (WCAG 2.1, success criterion 1.1.1),
+    written by the template; each Markdown text is rendered for its own cell (the exporter
+    renders a text once and reuses it); the caller's notebook keeps its cells."""
+    nb = _executed(tmp_path)
+    nb.cells.append(new_code_cell("fig", outputs=[new_output(
+        "display_data", data={"image/png": base64.b64encode(PNG_1PX).decode(),
+                              "text/plain": "<Figure>"})]))
+    nb.cells.append(new_markdown_cell("## Another *heading*"))
+    cells = len(nb.cells)
+    html = convert_notebook(nb, exporter)
+    images = re.findall(r"<img\b[^>]*>", html)
+    assert len(images) == 2  # the logo and the figure
+    assert all(re.search(r'\balt="[^"]+"', tag) for tag in images)
+    assert "A heading" in html and "Another <em>heading</em>" in html
+    assert len(nb.cells) == cells
+    again = convert_notebook(_executed(tmp_path), exporter)
+    assert "A heading" in again and "Another" not in again
+
+
 def test_report_data_round_trip(tmp_path):
     """The last output of the report-data MIME type is what the batch reads."""
     assert read_report_data(_executed(tmp_path))["results"]["verdict"] == "meets targets"

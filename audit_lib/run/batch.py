@@ -98,9 +98,12 @@ _audit_warm_up()
 del _audit_warm_up
 # what is loaded now stays for the kernel's life: keep it out of the collector's full passes
 # (matplotlib leaves many reference cycles; a full pass over every module's objects is slow)
+# a young-generation pass every 10 000 net allocations instead of 700: a workbook allocates
+# millions of short-lived objects; a fifth less collection time for about 20 MB more at peak
 import gc as _audit_gc
 _audit_gc.collect()
 _audit_gc.freeze()
+_audit_gc.set_threshold(10_000, 10, 10)
 del _audit_gc
 """
 _WORKER: dict = {}
@@ -245,11 +248,14 @@ def _run_task(task: dict) -> dict:
     result = {"id": task["id"], "name": task["name"]}
     start = time.perf_counter()
     try:
-        nb = _WORKER["kernel"].execute(task["workbook"], tmp_nb, task["parameters"])
+        # the executed workbook is saved only when it is kept (it is most of a run's bytes)
+        nb = _WORKER["kernel"].execute(task["workbook"],
+                                       tmp_nb if task.get("keep_notebook") else None,
+                                       task["parameters"])
         data = read_report_data(nb)
         if not data or "results" not in data:
             raise AuditError("the workbook published no results (its report-data cell)")
-        html = strip_machine_paths(convert_notebook(nb, _WORKER["exporter"]), task["paths"])
+        html = _client_clean(convert_notebook(nb, _WORKER["exporter"]), task["paths"])
         write_atomic(html_path, html)
         _keep_notebook(tmp_nb, nb_path, task)
         results = data["results"]
@@ -269,6 +275,22 @@ def _run_task(task: dict) -> dict:
         result["error"] = strip_machine_paths(result["error"], task["paths"])
     result["seconds"] = time.perf_counter() - start
     return result
+
+
+#: A file embedded in a page (a figure's ``data:`` URI, base64): most of a report's bytes, and
+#: never a machine path. Only one that starts an attribute or ``url(`` is skipped, so the text
+#: either side of it is cleaned exactly as in one piece.
+_DATA_URI = re.compile(r"(?<=[\"'(])data:[\w.+/-]+;base64,[A-Za-z0-9+/=]+")
+
+
+def _client_clean(page: str, known: dict) -> str:
+    """:func:`strip_machine_paths` on a page, around its embedded figures (about 5 x faster)."""
+    parts, start = [], 0
+    for match in _DATA_URI.finditer(page):
+        parts += [strip_machine_paths(page[start:match.start()], known), match.group(0)]
+        start = match.end()
+    parts.append(strip_machine_paths(page[start:], known))
+    return "".join(parts)
 
 
 def _keep_notebook(tmp_nb: Path, nb_path: Path, task: dict) -> None:

@@ -78,20 +78,70 @@ _audit_clear()  # it removes its own name too
 """
 
 
+def _report_exporter_class():
+    """nbconvert's ``HTMLExporter`` without the work a finished report does not need.
+
+    Per report it skips: the BeautifulSoup pass over the whole page (it gives images an
+    alternative text, which the template now writes, and makes input cells focusable, which
+    the report has none of), a full notebook validation after each of its twelve
+    preprocessors, a second deep copy of the notebook, and disabled preprocessors; and it
+    renders each Markdown text once per exporter (the workbook's headings and explanations
+    are the same in every enclosure's report). Together about four fifths of a conversion.
+    """
+    from jinja2 import pass_context
+    from nbconvert import HTMLExporter
+    from nbconvert.exporters.templateexporter import TemplateExporter
+    from nbconvert.filters.highlight import Highlight2HTML
+    from nbconvert.filters.widgetsdatatypefilter import WidgetsDataTypeFilter
+
+    class ReportExporter(HTMLExporter):
+        _markdown_cache: dict
+
+        def from_notebook_node(self, nb, resources=None, **kw):
+            if not hasattr(self, "_markdown_cache"):
+                self._markdown_cache = {}
+                self.register_filter("highlight_code", Highlight2HTML(parent=self))
+                self.register_filter("filter_data_type", WidgetsDataTypeFilter(
+                    notebook_metadata=self._nb_metadata, parent=self))
+            return TemplateExporter.from_notebook_node(self, nb, resources, **kw)
+
+        def _preprocess(self, nb, resources):
+            # the caller's notebook is copied once (Exporter.from_notebook_node); the
+            # notebook came from nbclient, which validated every output it built
+            for preprocessor in self._preprocessors:
+                if preprocessor.enabled:
+                    nb, resources = preprocessor(nb, resources)
+            return nb, resources
+
+        @pass_context
+        def markdown2html(self, context, source):
+            if context.get("cell", {}).get("attachments"):
+                return super().markdown2html(context, source)
+            cache = self._markdown_cache
+            if source not in cache:
+                if len(cache) > 1000:
+                    cache.clear()
+                cache[source] = super().markdown2html(context, source)
+            return cache[source]
+
+    return ReportExporter
+
+
 def make_exporter():
-    """Return an ``HTMLExporter`` for the audit template (compile once, reuse).
+    """Return an exporter for the audit template (compile once, reuse).
 
     Code is hidden, prompts are hidden, cells tagged with one of :data:`HIDDEN_TAGS` are
-    removed, and no script is loaded from the network.
+    removed, and no script is loaded from the network. A subclass of nbconvert's
+    ``HTMLExporter`` (:func:`_report_exporter_class`).
     """
-    from nbconvert import HTMLExporter
     from traitlets.config import Config
 
     config = Config()
     config.TagRemovePreprocessor.enabled = True
     config.TagRemovePreprocessor.remove_cell_tags = HIDDEN_TAGS
     config.CSSHTMLHeaderPreprocessor.enabled = False
-    return HTMLExporter(
+    config.HighlightMagicsPreprocessor.enabled = False  # code is hidden
+    return _report_exporter_class()(
         config=config,
         template_name="audit",
         extra_template_basedirs=[str(TEMPLATES_DIR)],
@@ -258,17 +308,14 @@ def _register_engine() -> None:
             # a connected client is reused: a new one waits 0.2 s for the kernel's output
             # channel to fall quiet (jupyter_client's wait_for_ready) on every workbook
             client.kc = kc
-            # papermill saves the whole notebook before and after every cell (about 70
-            # validated writes of a growing notebook); save once, when it completes
-            output_path, nb_man.output_path = nb_man.output_path, None
-            try:
+            try:  # no output path here: WarmKernel.execute saves once, when it completes
                 return client.execute()
             finally:
-                nb_man.output_path = output_path
                 if client.kc is not None:
                     try:
                         if km is None or run_sync(km.is_alive)():
-                            run_sync(client.kc.execute_interactive)(_RESET_CODE, timeout=30)
+                            run_sync(client.kc.execute_interactive)(
+                                _RESET_CODE, silent=True, store_history=False, timeout=30)
                     finally:
                         if client.kc is not kc:  # a client made for this workbook only
                             client.kc.stop_channels()
@@ -300,6 +347,7 @@ class WarmKernel:
         self.km = None
         self.kc = None
         self._socket_dir = None
+        self._workbooks: dict = {}
 
     def launch(self) -> None:
         """Start the kernel process without waiting for it (see :meth:`ensure_started`).
@@ -321,7 +369,10 @@ class WarmKernel:
                                      kernel_spec_manager=_spec_manager(), **connection)
         # an exported MPLBACKEND (e.g. Agg) would stop the inline backend: figures vanish
         env = {k: v for k, v in os.environ.items() if k != "MPLBACKEND"}
-        run_sync(self.km.start_kernel)(cwd=self.cwd, env=env)
+        # no input history: the kernel would write every cell to an SQLite file (a thread
+        # and a database for code nobody recalls)
+        run_sync(self.km.start_kernel)(cwd=self.cwd, env=env,
+                                       extra_arguments=["--HistoryManager.enabled=False"])
 
     def ensure_started(self) -> None:
         """Start the kernel if it is not running (first use, or after it died), and warm it.
@@ -348,10 +399,18 @@ class WarmKernel:
     def execute(self, input_path, output_path, parameters: dict, timeout: float = 900):
         """Execute one workbook with papermill; return the executed notebook.
 
+        The steps of ``papermill.execute_notebook`` (parameters cell injected after the
+        ``parameters`` cell, papermill metadata, error markers, :class:`PapermillExecutionError`)
+        without its unconditional serialisation of the executed notebook, which costs about
+        as much as converting it to HTML when nobody keeps the file. The workbook file is
+        parsed once per kernel while it is unchanged.
+
         Parameters
         ----------
-        input_path, output_path : str or PathLike
-            Workbook to run, and where papermill saves the executed copy as it goes.
+        input_path : str or PathLike
+            Workbook to run.
+        output_path : str or PathLike or None
+            Where the executed copy is saved when it completes or fails; None saves nothing.
         parameters : dict
             Values injected after the ``parameters`` cell (JSON-able).
         timeout : float
@@ -362,15 +421,43 @@ class WarmKernel:
         papermill.PapermillExecutionError
             A cell raised; the executed notebook with the error is still saved.
         """
-        import papermill
+        from papermill.engines import papermill_engines
+        from papermill.execute import (
+            prepare_notebook_metadata,
+            raise_for_execution_errors,
+            remove_error_markers,
+        )
+        from papermill.iorw import write_ipynb
+        from papermill.parameterize import parameterize_notebook
 
         self.ensure_started()
-        return papermill.execute_notebook(
-            str(input_path), str(output_path), parameters=parameters,
-            engine_name=_ENGINE_NAME, kernel_name=self.kernel_name, km=self.km, kc=self.kc,
-            progress_bar=False, execution_timeout=timeout,
-            request_save_on_cell_execute=False,
-        )
+        input_path = str(input_path)
+        output_path = None if output_path is None else str(output_path)
+        nb = self._workbook(input_path)
+        if parameters:
+            nb = parameterize_notebook(nb, parameters, kernel_name=self.kernel_name,
+                                       engine_name=_ENGINE_NAME)
+        nb = remove_error_markers(prepare_notebook_metadata(nb, input_path, output_path))
+        nb = papermill_engines.execute_notebook_with_engine(
+            _ENGINE_NAME, nb, input_path=input_path, output_path=None,
+            kernel_name=self.kernel_name, progress_bar=False, log_output=False,
+            km=self.km, kc=self.kc, execution_timeout=timeout)
+        raise_for_execution_errors(nb, output_path)  # saves the failed notebook, then raises
+        if output_path is not None:
+            write_ipynb(nb, output_path)
+        return nb
+
+    def _workbook(self, path: str):
+        """A fresh copy of the workbook as papermill loads it (parsed once while unchanged)."""
+        import copy
+
+        from papermill.iorw import load_notebook_node
+
+        stat = os.stat(path)
+        key = (path, stat.st_mtime_ns, stat.st_size)
+        if self._workbooks.get(path, (None,))[0] != key:
+            self._workbooks[path] = (key, load_notebook_node(path))
+        return copy.deepcopy(self._workbooks[path][1])
 
     def shutdown(self) -> None:
         """Stop the kernel (safe to call twice)."""
