@@ -25,6 +25,8 @@ checks, verdict and actions) is the downstream it shares with the what-if planne
 from __future__ import annotations
 
 import datetime as dt
+import warnings
+import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -266,6 +268,38 @@ def audit_findings(site, enclosure_id: str, *, audit_date=None,
     return collect_notes(compute)
 
 
+_layouts: dict = {}
+
+
+def enclosure_layout(site, enclosure_id: str, spacing_m: float):
+    """The enclosure's scene, failed emitter labels and unscaled maps: ``(scene, failed, maps)``.
+
+    They depend on the site's records and the grid only, not on the day or its readings, so
+    the last enclosure's are kept per loaded site: the previous audit's comparison
+    (:func:`audit_findings` at an earlier day) takes this audit's instead of computing them
+    again. The library warnings raised while computing them are raised again on every
+    reuse, so both audits get the same notes. Do not change the maps in place.
+    """
+    key = id(site)
+    if key not in _layouts:
+        _layouts[key] = {}
+        weakref.finalize(site, _layouts.pop, key, None)
+    kept = _layouts[key]
+    wanted = (enclosure_id, float(spacing_m))
+    if wanted not in kept:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            scene = build_scene(site, enclosure_id)
+            failed = failed_labels(site, enclosure_id)
+            maps = compute_maps(scene, spacing_m=spacing_m, failed=failed)
+        kept.clear()  # one enclosure per site: a batch kernel moves on to the next
+        kept[wanted] = (scene, failed, maps, caught)
+    scene, failed, maps, caught = kept[wanted]
+    for w in caught:
+        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+    return scene, failed, maps
+
+
 def _findings_stages(site, enclosure_id: str, day, spacing_m) -> dict:
     """Scene, calibration to the day's readings, lamp forecasts and the shared downstream."""
     record = site.enclosure(enclosure_id)
@@ -273,9 +307,7 @@ def _findings_stages(site, enclosure_id: str, day, spacing_m) -> dict:
     species = [known[s] for s in record.species if s in known]
     zones = targets.read_zone_table()
 
-    scene = build_scene(site, enclosure_id)
-    failed = failed_labels(site, enclosure_id)
-    raw_maps = compute_maps(scene, spacing_m=spacing_m, failed=failed)
+    scene, failed, raw_maps = enclosure_layout(site, enclosure_id, spacing_m)
     measured = steps.measured_uvi(site, enclosure_id, day)
     positions = steps.measuring_positions(record, raw_maps, measured["position"])
     points = point_values(scene, positions, failed=failed) if len(positions) else positions

@@ -301,7 +301,8 @@ class WhatIfPlanner:
             the changes made to the previous lamp are dropped.
         checks_only : bool
             Only what the checks need (:func:`audit_lib.pipeline.findings.find_figures`;
-            :func:`audit_lib.pipeline.plan.find_plan` scores candidates so).
+            :func:`audit_lib.pipeline.plan.find_plan` scores candidates so): no surface
+            statistics either (``statistics`` is empty, with no note on extrapolation).
 
         Raises
         ------
@@ -340,8 +341,8 @@ class WhatIfPlanner:
         zone = self._zones[species.zone] if species else None
         max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
         settings = TargetSettings.from_record(site.records.targets)
-        stats = {n: surface_statistics(m, max_range, settings.refuge_uvi_max)
-                 for n, m in maps.items()}
+        stats = {} if checks_only else {
+            n: surface_statistics(m, max_range, settings.refuge_uvi_max) for n, m in maps.items()}
         record = site.enclosure(self.enclosure_id)
         profiles = None
         if record.lamps:

@@ -31,7 +31,8 @@ PLACE_SHAPE = (6, 6)
 
 def only_lamp(scene, lamp):
     """The scene with one placed lamp only (its contribution alone)."""
-    return replace(scene, lamps=(lamp,))
+    return scene if len(scene.lamps) == 1 and scene.lamps[0] is lamp else replace(
+        scene, lamps=(lamp,))
 
 
 def failed_of(failed, lamp_id):

@@ -119,7 +119,10 @@ def group_factors(
     n_pts = pts.shape[0]
     pos, axes = group.positions_m, group.axes
     n_src = pos.shape[0]
-    nx, ny, nz = (float(c) for c in np.asarray(normal, float) / np.linalg.norm(normal))
+    if tuple(normal) == _UP:
+        nx, ny, nz = _UP
+    else:
+        nx, ny, nz = (float(c) for c in np.asarray(normal, float) / np.linalg.norm(normal))
     alive = np.ones(n_src) if alive is None else np.asarray(alive, float)
     if _straight_down(group, (nx, ny, nz), pts) and all(sc.bounds_m is None for sc in screens):
         gf = _straight_down_factors(group, pts, alive, keep)
@@ -197,17 +200,60 @@ def group_factors(
     return GroupFactors(factor, alive_sum, total, factor_cos, distance, out_masks)
 
 
+_UP = (0.0, 0.0, 1.0)
+#: Per source group (by identity, held here): whether its sources suit the fast path, their
+#: single-precision positions and, per receiver height, the height terms. Sized for the
+#: groups of a few scenes; emptied when it grows past :data:`_FAST_PARTS_MAX`.
+_fast_parts_of: dict = {}
+_FAST_PARTS_MAX = 512
+
+
+def _fast_parts(group: SourceGroup) -> dict | None:
+    """The fast path's per-group terms (None: the group's sources do not suit it)."""
+    hit = _fast_parts_of.get(id(group))
+    if hit is not None and hit[0] is group:
+        return hit[1]
+    parts = None
+    if (not isinstance(group.pattern, (str, AngularPattern))
+            and group.distance_exponent == 2.0
+            and group.valid_range_m is None
+            and bool(np.all(group.axes == np.array([0.0, 0.0, -1.0])))):
+        f32 = np.float32
+        parts = {"sx": group.positions_m[:, 0:1].astype(f32),
+                 "sy": group.positions_m[:, 1:2].astype(f32), "levels": {}}
+    if len(_fast_parts_of) >= _FAST_PARTS_MAX:
+        _fast_parts_of.clear()
+    _fast_parts_of[id(group)] = (group, parts)
+    return parts
+
+
 def _straight_down(group: SourceGroup, normal, pts) -> bool:
     """True when the fast path applies: facing up, axes straight down, cos^m, 1/r^2."""
     return (
-        normal == (0.0, 0.0, 1.0)
-        and not isinstance(group.pattern, (str, AngularPattern))
-        and group.distance_exponent == 2.0
-        and group.valid_range_m is None
-        and bool(np.all(group.axes == np.array([0.0, 0.0, -1.0])))
+        normal == _UP
         and pts.size > 0
+        and _fast_parts(group) is not None
         and bool(np.all(pts[:, 2] == pts[0, 2]))
     )
+
+
+def _level_terms(group: SourceGroup, parts: dict, z_m) -> tuple:
+    """Height terms of the fast path for receivers at height ``z_m``, kept per group."""
+    key = float(z_m)
+    terms = parts["levels"].get(key)
+    if terms is None:
+        f32 = np.float32
+        m = float(group.pattern)
+        h = group.positions_m[:, 2:3] - z_m
+        lit = h > 0
+        scale = np.where(lit, np.asarray(group.weights, float)[:, None] * np.abs(h) ** (m + 1),
+                         0.0)
+        terms = (scale.astype(f32), (h * h).astype(f32), np.abs(h).astype(f32),
+                 f32(-(m + 3.0) / 2.0))
+        if len(parts["levels"]) >= 64:
+            parts["levels"].clear()
+        parts["levels"][key] = terms
+    return terms
 
 
 def _straight_down_factors(
@@ -219,21 +265,17 @@ def _straight_down_factors(
     element instead of a general pattern evaluation. Computed in single precision
     (relative error about 1e-6, far below any meter's uncertainty) for speed.
     """
-    m = float(group.pattern)
     n_src, n_pts = group.positions_m.shape[0], pts.shape[0]
     f32 = np.float32
-    h = group.positions_m[:, 2:3] - pts[0, 2]
-    lit = h > 0
-    scale = np.where(lit, np.asarray(group.weights, float)[:, None] * np.abs(h) ** (m + 1), 0.0)
-    scale, h2, abs_h = scale.astype(f32), (h * h).astype(f32), np.abs(h).astype(f32)
+    parts = _fast_parts(group)
+    scale, h2, abs_h, exponent = _level_terms(group, parts, pts[0, 2])
     factor = np.empty((n_src, n_pts)) if keep else None
     factor_cos = np.empty(n_pts)
     alive_sum = np.empty(n_pts)
     total = np.empty(n_pts)
-    sx, sy = (group.positions_m[:, i : i + 1].astype(f32) for i in (0, 1))
+    sx, sy = parts["sx"], parts["sy"]
     px, py = pts[:, 0].astype(f32), pts[:, 1].astype(f32)
     alive32 = alive.astype(f32)
-    exponent = f32(-(m + 3.0) / 2.0)
     # preallocated single-precision buffers: fresh temporaries cost more than the arithmetic
     width0 = min(_BLOCK, n_pts)
     a, b, c = (np.empty((n_src, width0), f32) for _ in range(3))

@@ -12,8 +12,11 @@ the angle dependence of screen transmission (normal-incidence values are used).
 
 from __future__ import annotations
 
+import math
+import sys
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -132,7 +135,8 @@ def evaluate_points(
             hint="labels look like '<lamp id>/<emitter name>' for LED arrays",
         )
     for placed, g in groups:
-        alive = np.array([lab not in failed for lab in g.labels], float)
+        alive = (np.array([lab not in failed for lab in g.labels], float) if failed
+                 else np.ones(len(g.labels)))
         gf = group_factors(g, pts, normal, planes, alive, keep=bool(per_source))
         if gf.factor is None and any(m is not True and m is not False for m in gf.screen_masks):
             gf = group_factors(g, pts, normal, planes, alive, keep=True)
@@ -162,7 +166,7 @@ def evaluate_points(
                 per = gf.factor if per is None else per
                 contributions[q].append(q_vec[k] * full[k] * per * alive[:, None])
         labels.extend(g.labels)
-        w_ref = np.nan_to_num(q_vec[0], nan=1.0) or 1.0
+        w_ref = _finite_or_one(q_vec[0])
         num_cos += w_ref * gf.factor_cos
         den += w_ref * gf.total
         if g.valid_range_m is not None:
@@ -180,6 +184,16 @@ def evaluate_points(
         tuple(labels),
         {q: np.vstack(c) if c else np.zeros((0, len(pts))) for q, c in contributions.items()},
     )
+
+
+def _finite_or_one(value) -> float:
+    """``numpy.nan_to_num(value, nan=1.0) or 1.0`` for one number (without its overhead)."""
+    value = float(value)
+    if math.isnan(value) or value == 0.0:
+        return 1.0
+    if math.isinf(value):
+        return math.copysign(sys.float_info.max, value)
+    return value
 
 
 def _outside(distance_m, valid, lit) -> np.ndarray:
@@ -233,17 +247,28 @@ def surface_grid(surface: Surface, spacing_m: float = 0.01, shape=None):
     x_m, y_m, points_m : numpy.ndarray
         (nx,), (ny,) and (ny * nx, 3) [m].
     """
+    if shape is None and spacing_m <= 0:
+        raise InputError("grid spacing must be positive", field="spacing_m")
+    if shape is None:
+        return _surface_grid(surface, float(spacing_m), None)
+    return _surface_grid(surface, 0.0, tuple(int(v) for v in shape))
+
+
+@lru_cache(maxsize=256)
+def _surface_grid(surface: Surface, spacing_m: float, shape):
+    """:func:`surface_grid`, kept per surface and grid (read-only arrays: the same surfaces
+    are gridded again for every placement the what-if planner tries)."""
     w = surface.x_max_m - surface.x_min_m
     d = surface.y_max_m - surface.y_min_m
     if shape is None:
-        if spacing_m <= 0:
-            raise InputError("grid spacing must be positive", field="spacing_m")
         shape = tuple(max(1, int(np.ceil(length / spacing_m - 1e-9))) for length in (d, w))
     ny, nx = (int(v) for v in shape)
     x = surface.x_min_m + (np.arange(nx) + 0.5) * w / nx
     y = surface.y_min_m + (np.arange(ny) + 0.5) * d / ny
     xx, yy = np.meshgrid(x, y)
     pts = np.column_stack([xx.ravel(), yy.ravel(), np.full(xx.size, surface.z_m)])
+    for a in (x, y, pts):
+        a.flags.writeable = False
     return x, y, pts
 
 
