@@ -256,8 +256,11 @@ def surface_grid(surface: Surface, spacing_m: float = 0.01, shape=None):
 
 @lru_cache(maxsize=256)
 def _surface_grid(surface: Surface, spacing_m: float, shape):
-    """:func:`surface_grid`, kept per surface and grid (read-only arrays: the same surfaces
-    are gridded again for every placement the what-if planner tries)."""
+    """:func:`surface_grid`, kept per surface and grid.
+
+    Read-only arrays: the same surfaces are gridded again for every placement the what-if
+    planner tries.
+    """
     w = surface.x_max_m - surface.x_min_m
     d = surface.y_max_m - surface.y_min_m
     if shape is None:
