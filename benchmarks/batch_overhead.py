@@ -14,9 +14,9 @@ alone (:func:`audit_lib.run.notebooks.convert_notebook`). ``kernel_cpu_s``: the 
 IPython's ``pre_execute`` and ``post_execute`` events: the workbook's code, its figures and
 their display); ``kernel_overhead_cpu_s`` = ``kernel_cpu_s`` - ``kernel_cells_cpu_s`` (message
 handling, threads, the namespace clear); ``kernel_threads_cpu_s``: the kernel's threads
-other than the main one (message sending and receiving); ``kernel_gc_cpu_s``: garbage collection in the
-kernel (part of either). Goals (issue "a whole collection in minutes"): worker_cpu_s <= 0.25,
-kernel overhead <= 0.3 s beyond running the workbook code in-process.
+other than the main one (message sending and receiving); ``kernel_gc_cpu_s``: garbage
+collection in the kernel (part of either). Goals (issue "a whole collection in minutes"):
+worker_cpu_s <= 0.25, kernel overhead <= 0.3 s beyond running the workbook code in-process.
 
 The machine is shared: CPU times vary by tens of per cent between runs; use ``--repeat``.
 

@@ -212,8 +212,11 @@ def _series_stats(pairs, n_steps, step_s, uvi_range, mask):
 
 @lru_cache(maxsize=32)
 def _distinct_steps(key: bytes, n_lamps: int):
-    """Distinct rows of a (steps, lamps) fraction table and their counts (memoised: every
-    place and candidate of one day shares its table; the arrays are read-only)."""
+    """Distinct rows of a (steps, lamps) fraction table and their counts.
+
+    Memoised: every place and candidate of one day shares its table; the arrays are
+    read-only.
+    """
     combos, counts = np.unique(np.frombuffer(key).reshape(-1, n_lamps), axis=0,
                                return_counts=True)
     combos.flags.writeable = counts.flags.writeable = False

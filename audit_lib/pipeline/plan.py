@@ -331,8 +331,10 @@ def _search(planner, base, checks) -> list:
 
 
 def _screening_planner(planner: WhatIfPlanner) -> WhatIfPlanner:
-    """The planner on a grid :data:`SCREEN_COARSENING` times coarser (same code, same
-    checks; lamps, spectra and schedules shared with ``planner``)."""
+    """The planner on a grid :data:`SCREEN_COARSENING` times coarser.
+
+    Same code, same checks; lamps, spectra and schedules are shared with ``planner``.
+    """
     screen = copy.copy(planner)
     if planner.spacing_m is not None:
         screen.spacing_m = planner.spacing_m * SCREEN_COARSENING

@@ -372,8 +372,11 @@ class WhatIfPlanner:
             notes=notes + found.notes)
 
     def _spectra_metrics(self, c, site, record, scene) -> dict:
-        """Spectrum metrics per lamp model of the planned enclosure: :func:`lamp_spectra`
-        one placed lamp at a time, each model's shared by every planner of the site."""
+        """Spectrum metrics per lamp model of the planned enclosure.
+
+        :func:`lamp_spectra` one placed lamp at a time, each model's shared by every
+        planner of the site.
+        """
         placed = {p.name: p for p in scene.lamps}
         out = {}
         for place in record.lamps:

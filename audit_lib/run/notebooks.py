@@ -79,7 +79,7 @@ _audit_clear()  # it removes its own name too
 
 
 def _report_exporter_class():
-    """nbconvert's ``HTMLExporter`` without the work a finished report does not need.
+    """The report exporter: nbconvert's ``HTMLExporter`` without work a report does not need.
 
     Per report it skips: the BeautifulSoup pass over the whole page (it gives images an
     alternative text, which the template now writes, and makes input cells focusable, which

@@ -171,8 +171,11 @@ class PlacedLamp:
 
     @cached_property
     def source_groups(self) -> tuple[SourceGroup, ...]:
-        """The lamp's source groups moved into the enclosure frame, labels as in
-        :func:`placed_groups` (built once: the records are frozen, so it cannot go stale)."""
+        """The lamp's source groups moved into the enclosure frame.
+
+        Labels as in :func:`placed_groups`; built once (the records are frozen, so it
+        cannot go stale).
+        """
         rot = rotation_matrix(self.azimuth_deg, self.tilt_deg)
         origin = np.array([self.x_m, self.y_m, self.z_m], float)
         led = isinstance(self.lamp, LedArray)
