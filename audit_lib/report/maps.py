@@ -216,19 +216,22 @@ def _range_contours(ax, m, uvi_range) -> None:
 
 
 def _draw_lamps(ax, enclosure, m, show_emitters: bool) -> None:
-
+    s = m.surface
     for placed in enclosure.lamps:
         outline = lamp_outline(placed)
         ax.plot(outline[:, 0], outline[:, 1], color="white", lw=2.4)
         ax.plot(outline[:, 0], outline[:, 1], color=PALETTE["black"], lw=1.0)
         cx, cy = outline[:-1].mean(axis=0)
+        # the name above the outline, or below it when the outline reaches the panel's top
+        # (the label would be cut off by the panel's edge)
+        above = outline[:, 1].max() < s.y_max_m - 0.12 * (s.y_max_m - s.y_min_m)
         ax.annotate(
             placed.id,
-            (cx, outline[:, 1].max()),
+            (cx, outline[:, 1].max() if above else outline[:, 1].min()),
             textcoords="offset points",
-            xytext=(0, 3),
+            xytext=(0, 3 if above else -3),
             ha="center",
-            va="bottom",
+            va="bottom" if above else "top",
             fontsize=7,
             color=PALETTE["black"],
             bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.8},
