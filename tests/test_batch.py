@@ -141,7 +141,7 @@ def test_page_cleaning_skips_embedded_figures_only():
 
     known = {"/data/site/park": "park", "/data/out": ""}
     page = ('<p>/data/site/park/readings.csv</p><img src="data:image/png;base64,AAAA/data/out/x'
-            'B+/=" alt="/home/u/fig.png">/data/out/reports/a.html (/usr/lib/x.py)'
+            'B+/=" alt="/srv/u/fig.png">/data/out/reports/a.html (/usr/lib/x.py)'
             "<div style=\"background:url(data:image/png;base64,/data/out/Z==)\">/data/out</div>")
     cleaned = _client_clean(page, known)
     assert "base64,AAAA/data/out/xB+/=" in cleaned and "base64,/data/out/Z==" in cleaned
