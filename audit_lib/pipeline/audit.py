@@ -28,6 +28,7 @@ import datetime as dt
 import warnings
 import weakref
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -263,7 +264,7 @@ def audit_findings(site, enclosure_id: str, *, audit_date=None,
     def compute():
         stages = _findings_stages(site, enclosure_id, choose_audit_date(site, audit_date),
                                   spacing_m)
-        return stages["found"]
+        return stages.found
 
     return collect_notes(compute)
 
@@ -300,7 +301,27 @@ def enclosure_layout(site, enclosure_id: str, spacing_m: float):
     return scene, failed, maps
 
 
-def _findings_stages(site, enclosure_id: str, day, spacing_m) -> dict:
+class _Stages(NamedTuple):
+    """What the audit's stages up to the shared downstream give (see :func:`_findings_stages`)."""
+
+    record: object
+    species: list
+    scene: object
+    failed: tuple
+    maps: dict
+    points: pd.DataFrame
+    calibration: float
+    notes: list
+    schedules: dict
+    profiles: object
+    lamp_spectra: dict
+    spectra: dict
+    lamps: pd.DataFrame
+    decays: list
+    found: Findings
+
+
+def _findings_stages(site, enclosure_id: str, day, spacing_m) -> _Stages:
     """Scene, calibration to the day's readings, lamp forecasts and the shared downstream."""
     record = site.enclosure(enclosure_id)
     known = targets.species_targets(site.records.species)
@@ -340,10 +361,8 @@ def _findings_stages(site, enclosure_id: str, day, spacing_m) -> dict:
                          unknown_species=[s for s in record.species if s not in known],
                          target_settings=targets.TargetSettings.from_record(site.records.targets),
                          uncertainty=audit_uncertainty(site, enclosure_id, day, points))
-    return {"record": record, "species": species, "scene": scene, "failed": failed,
-            "maps": maps, "points": points, "calibration": calibration, "notes": notes,
-            "schedules": schedules, "profiles": profiles, "lamp_spectra": lamp_spectra,
-            "spectra": spectra, "lamps": lamps, "decays": decays, "found": found}
+    return _Stages(record, species, scene, failed, maps, points, calibration, notes,
+                   schedules, profiles, lamp_spectra, spectra, lamps, decays, found)
 
 
 def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
@@ -356,11 +375,9 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
     info = site.records.site
     day = choose_audit_date(site, audit_date)
     stages = _findings_stages(site, enclosure_id, day, spacing_m)
-    record, species, scene, failed = (stages[k] for k in ("record", "species", "scene",
-                                                          "failed"))
-    maps, points, calibration, notes = (stages[k] for k in ("maps", "points", "calibration",
-                                                            "notes"))
-    schedules, profiles, found = stages["schedules"], stages["profiles"], stages["found"]
+    record, species, scene, failed, maps, points, calibration, notes, schedules, profiles = \
+        stages[:10]
+    found = stages.found
     zone = found.zone
     max_range = (zone.max_uvi_low, zone.max_uvi_high) if zone else None
     stats = statistics_table(maps, uvi_range=max_range,
@@ -402,9 +419,9 @@ def _audit_enclosure(site, enclosure_id: str, *, audit_date, spacing_m,
         client=info.client, logo_path=str(site.path_of(info.logo)) if info.logo else None,
         findings=found, scene=scene, calibration=calibration, maps=maps,
         surface_stats=stats, points=points, daily=daily, monthly=monthly, natural=natural,
-        failures=failures, failure_study=monte_carlo, lamps=stages["lamps"],
-        decays=stages["decays"], spectra=stages["spectra"],
-        lamp_spectra=stages["lamp_spectra"], notes=notes + found.notes,
+        failures=failures, failure_study=monte_carlo, lamps=stages.lamps,
+        decays=stages.decays, spectra=stages.spectra, lamp_spectra=stages.lamp_spectra,
+        notes=notes + found.notes,
         provenance=_provenance(site, enclosure_id, spacing_m, day))
 
 
