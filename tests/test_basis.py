@@ -158,6 +158,9 @@ def test_site_targets_reach_the_checks_and_the_report(tmp_path):
                for n in audit.notes)
     html = checks_table(audit)
     assert "Target rests on" in html and "site setting" in html and "from-memory" in html
+    from audit_lib.report.enclosure_tables import surfaces_table
+
+    assert "at or below UV Index 0.2" in surfaces_table(audit)._repr_html_()  # the site's
 
 
 # --- UV provision -------------------------------------------------------------------------

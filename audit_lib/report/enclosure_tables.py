@@ -25,6 +25,7 @@ def surfaces_table(audit) -> HTMLBlock:
         return fmt.note("No surfaces.")
     by_quantity = {q: t.set_index("surface") for q, t in stats.groupby("quantity")}
     uvi = by_quantity["uvi"]
+    refuge_uvi = audit.findings.target_settings.refuge_uvi_max  # the site's, as in the stats
     rows = []
     for surface, r in uvi.iterrows():
         rows.append({"surface": surface,
@@ -41,7 +42,8 @@ def surfaces_table(audit) -> HTMLBlock:
         Column("mean", header("Mean UV Index", "uvi"), "uvi"),
         Column("min", header("Lowest UV Index", "uvi"), "uvi"),
         Column("in_range", header("Area in the basking range", "share_pct"), "share_pct"),
-        Column("refuge", header("Area at or below UV Index 0.5", "share_pct"), "share_pct"),
+        Column("refuge", header(f"Area at or below UV Index {refuge_uvi:g}", "share_pct"),
+               "share_pct"),
         Column("vitd", header("Mean vitamin-D irradiance", "w_m2"), "w_m2"),
         Column("lux", header("Mean illuminance", "lux"), "lux")])
 
