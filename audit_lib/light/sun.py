@@ -24,6 +24,7 @@ than 0.001 deg).
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 from dataclasses import dataclass
 
@@ -358,38 +359,24 @@ def clear_sky_uvi_day(
     """
     import pandas as pd
 
-    time_h, sza, uvi = _remembered(_uvi_day_arrays, latitude_deg, longitude_deg, date,
-                                   ozone_du, utc_offset_h, step_s)
+    time_h, sza, uvi = _uvi_day_arrays(float(latitude_deg), float(longitude_deg), date,
+                                       float(ozone_du), float(utc_offset_h), float(step_s))
     return pd.DataFrame({"time_h": time_h, "solar_zenith_deg": sza, "uvi": uvi}, copy=True)
 
 
+@functools.lru_cache(maxsize=4096)
 def _uvi_day_arrays(latitude_deg, longitude_deg, date, ozone_du, utc_offset_h, step_s):
+    """``(time_h, solar_zenith_deg, uvi)`` of :func:`clear_sky_uvi_day`, read-only.
+
+    Remembered per process: the sun's reference days depend only on the place and the date,
+    so every enclosure of a site (and every month of its year table) asks for the same few.
+    """
     t_s = (np.arange(int(round(86400 / step_s))) + 0.5) * step_s
     sza = solar_zenith_deg(latitude_deg, longitude_deg, date, t_s / 60.0, utc_offset_h)
-    return t_s / 3600.0, sza, clear_sky_uvi(sza, ozone_du)
-
-
-#: Results of the sun's reference days already computed in this process, by their arguments.
-_DAYS: dict = {}
-
-
-def _remembered(compute, *args):
-    """``compute(*args)``, computed once per process for plain scalar arguments.
-
-    The sun's reference days depend only on the place and the date, not on the enclosure:
-    every enclosure of a site (and every month of its year table) asks for the same few,
-    so a batch worker computes each once. Arrays and other unhashable arguments are
-    simply computed.
-    """
-    scalar = all(isinstance(a, (int, float, np.floating, np.integer, dt.date)) for a in args)
-    if not scalar:
-        return compute(*args)
-    key = (compute.__name__, *(a if isinstance(a, dt.date) else float(a) for a in args))
-    if key not in _DAYS:
-        if len(_DAYS) > 20_000:
-            _DAYS.clear()
-        _DAYS[key] = compute(*args)
-    return _DAYS[key]
+    out = (t_s / 3600.0, sza, clear_sky_uvi(sza, ozone_du))
+    for a in out:
+        a.flags.writeable = False
+    return out
 
 
 def clear_sky_daily_dose_sed(latitude_deg, date, *, ozone_du=REFERENCE_OZONE_DU) -> float:
@@ -414,11 +401,7 @@ def clear_sky_daily_dose_sed(latitude_deg, date, *, ozone_du=REFERENCE_OZONE_DU)
     Integrates :func:`clear_sky_uvi_day` at 1-minute steps; WHO (2002) for the UV Index
     scale, CIE S 007/E-1998 for the SED.
     """
-    return _remembered(_daily_dose_sed, latitude_deg, date, ozone_du)
-
-
-def _daily_dose_sed(latitude_deg, date, ozone_du) -> float:
-    _, _, uvi = _uvi_day_arrays(latitude_deg, 0.0, date, ozone_du, 0.0, 60.0)
+    _, _, uvi = _uvi_day_arrays(float(latitude_deg), 0.0, date, float(ozone_du), 0.0, 60.0)
     return float(np.sum(erythemal_from_uv_index(uvi)) * 60.0 / SED_J_M2)
 
 
